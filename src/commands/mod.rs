@@ -1,0 +1,4 @@
+//! One file per command; each turns parsed arguments into library calls and printed output.
+
+pub mod check;
+pub mod demo;

@@ -1,0 +1,229 @@
+//! One slice of the work: a block window, a band, a chromophore and a group of channels.
+//!
+//! First every member needed gets its transform and smoothed power (once), then every pair
+//! is evaluated from those caches. When the caches of all members would exceed the memory
+//! budget, pairs are grouped into tiles of the pairing matrix and only a tile's members are
+//! held at a time; each pair still lands in its own slot, so tiling never changes a value.
+
+use std::collections::BTreeMap;
+
+use super::progress::Progress;
+use rayon::prelude::*;
+
+use super::{EngineError, PairRef, bytes_per_member_channel, par_map_init};
+use crate::spectral::Complex64;
+use crate::spectral::coherence::CoherencePlan;
+use crate::spectral::correlation::{fisher_z, pearson};
+use crate::spectral::morlet::WaveletPlan;
+use crate::study::{BlockWindow, Study};
+
+pub struct SliceContext<'a> {
+    pub study: &'a Study,
+    pub window: &'a BlockWindow,
+    pub chromophore: usize,
+    pub channels: &'a [usize],
+    /// `None` for correlation, which needs no transform.
+    pub plans: Option<&'a (WaveletPlan, CoherencePlan)>,
+    pub members_used: usize,
+    pub memory_bytes: u64,
+}
+
+/// One (pair, channel pair) result. `value` is NaN when a channel is bad in either member.
+/// For WTC it is the block-mean R², for correlation Fisher's z of Pearson r.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Contribution {
+    pub channel_a: usize,
+    pub channel_b: usize,
+    pub value: f64,
+    pub sum_cos: f64,
+    pub sum_sin: f64,
+}
+
+const MISSING: Contribution = Contribution {
+    channel_a: 0,
+    channel_b: 0,
+    value: f64::NAN,
+    sum_cos: 0.0,
+    sum_sin: 0.0,
+};
+
+/// The contributions of every pair, `per_pair` consecutive entries per pair.
+pub struct SliceResult {
+    pub per_pair: usize,
+    pub values: Vec<Contribution>,
+}
+
+/// A member's cached transform and smoothed power for one channel.
+struct Cached {
+    w: Vec<Complex64>,
+    p: Vec<f64>,
+}
+
+pub fn run(
+    ctx: &SliceContext,
+    pairs: &[PairRef],
+    progress: &dyn Progress,
+) -> Result<SliceResult, EngineError> {
+    let nch = ctx.channels.len();
+    let per_pair = nch * nch;
+    let mut values = vec![MISSING; pairs.len() * per_pair];
+    let Some(plans) = ctx.plans else {
+        correlation(ctx, pairs, &mut values, per_pair);
+        progress.advance(1, pairs.len() as u64);
+        return Ok(SliceResult { per_pair, values });
+    };
+    let (wavelet, coherence) = plans;
+    let per_member = bytes_per_member_channel(
+        wavelet.n_scales(),
+        wavelet.n_samples(),
+        coherence.power_len(),
+    ) * nch as u64;
+    let cap = (ctx.memory_bytes / per_member.max(1)) as usize;
+    if cap < 2 {
+        return Err(EngineError::Budget {
+            budget_gib: ctx.memory_bytes as f64 / GIB,
+            need_gib: 2.0 * per_member as f64 / GIB,
+        });
+    }
+    for tile in tiles(pairs, ctx.members_used, cap) {
+        let members: Vec<usize> = {
+            let mut m: Vec<usize> = tile
+                .iter()
+                .flat_map(|&i| [pairs[i].a, pairs[i].b])
+                .collect();
+            m.sort_unstable();
+            m.dedup();
+            m
+        };
+        // (member, channel) → cache, computed once for the tile.
+        let jobs: Vec<(usize, usize)> = members
+            .iter()
+            .flat_map(|&m| ctx.channels.iter().map(move |&c| (m, c)))
+            .collect();
+        let caches: Vec<Option<Cached>> = par_map_init(
+            &jobs,
+            || vec![Complex64::new(0.0, 0.0); wavelet.scratch_len().max(coherence.scratch_len())],
+            |scratch, &(m, c)| transform(ctx, wavelet, coherence, m, c, scratch),
+        );
+        progress.advance(0, jobs.len() as u64);
+        let index: BTreeMap<(usize, usize), usize> =
+            jobs.iter().enumerate().map(|(i, j)| (*j, i)).collect();
+        let mut tile_values = vec![MISSING; tile.len() * per_pair];
+        tile_values
+            .par_chunks_mut(per_pair)
+            .zip(tile.par_iter())
+            .for_each_init(
+                || vec![Complex64::new(0.0, 0.0); coherence.scratch_len()],
+                |scratch, (out, &pi)| {
+                    let p = pairs[pi];
+                    let combos = ctx
+                        .channels
+                        .iter()
+                        .flat_map(|&ca| ctx.channels.iter().map(move |&cb| (ca, cb)));
+                    for (slot, (ca, cb)) in out.iter_mut().zip(combos) {
+                        let x = caches[index[&(p.a, ca)]].as_ref();
+                        let y = caches[index[&(p.b, cb)]].as_ref();
+                        *slot = match (x, y) {
+                            (Some(x), Some(y)) => {
+                                let r = coherence.coherence(&x.w, &y.w, &x.p, &y.p, scratch);
+                                Contribution {
+                                    channel_a: ca,
+                                    channel_b: cb,
+                                    value: r.mean_r2(),
+                                    sum_cos: r.sum_cos,
+                                    sum_sin: r.sum_sin,
+                                }
+                            }
+                            _ => Contribution {
+                                channel_a: ca,
+                                channel_b: cb,
+                                ..MISSING
+                            },
+                        };
+                    }
+                },
+            );
+        for (k, &pi) in tile.iter().enumerate() {
+            values[pi * per_pair..(pi + 1) * per_pair]
+                .copy_from_slice(&tile_values[k * per_pair..(k + 1) * per_pair]);
+        }
+        progress.advance(1, tile.len() as u64);
+    }
+    Ok(SliceResult { per_pair, values })
+}
+
+const GIB: f64 = (1u64 << 30) as f64;
+
+/// Groups pair indices into tiles whose members fit in `cap` caches. With room for every member
+/// there is one tile; otherwise square tiles of the pairing matrix, `cap / 2` rows by `cap / 2`
+/// columns, so a tile never holds more than `cap` members.
+fn tiles(pairs: &[PairRef], members_used: usize, cap: usize) -> Vec<Vec<usize>> {
+    if members_used <= cap {
+        return vec![(0..pairs.len()).collect()];
+    }
+    let side = (cap / 2).max(1);
+    let mut by_tile: BTreeMap<(usize, usize), Vec<usize>> = BTreeMap::new();
+    for (i, p) in pairs.iter().enumerate() {
+        by_tile
+            .entry((p.row / side, p.col / side))
+            .or_default()
+            .push(i);
+    }
+    by_tile.into_values().collect()
+}
+
+fn transform(
+    ctx: &SliceContext,
+    wavelet: &WaveletPlan,
+    coherence: &CoherencePlan,
+    member: usize,
+    channel: usize,
+    scratch: &mut [Complex64],
+) -> Option<Cached> {
+    let signal = ctx.study.signal(member, channel, ctx.chromophore)?;
+    let range = ctx.window.segment(member)?;
+    let mut w = vec![Complex64::new(0.0, 0.0); wavelet.n_scales() * wavelet.n_samples()];
+    wavelet.transform_into(
+        &signal[range],
+        &mut w,
+        &mut scratch[..wavelet.scratch_len()],
+    );
+    let mut p = vec![0.0; coherence.power_len()];
+    coherence.smoothed_power_into(&w, &mut p, &mut scratch[..coherence.scratch_len()]);
+    Some(Cached { w, p })
+}
+
+/// Pearson r over the block samples (no context), as Fisher's z.
+fn correlation(
+    ctx: &SliceContext,
+    pairs: &[PairRef],
+    values: &mut [Contribution],
+    per_pair: usize,
+) {
+    let block = |m: usize, c: usize| -> Option<&[f64]> {
+        let signal = ctx.study.signal(m, c, ctx.chromophore)?;
+        let s = ctx.window.starts[m]?;
+        Some(&signal[s..s + ctx.window.length])
+    };
+    values
+        .par_chunks_mut(per_pair)
+        .zip(pairs.par_iter())
+        .for_each(|(out, p)| {
+            let combos = ctx
+                .channels
+                .iter()
+                .flat_map(|&ca| ctx.channels.iter().map(move |&cb| (ca, cb)));
+            for (slot, (ca, cb)) in out.iter_mut().zip(combos) {
+                let value = match (block(p.a, ca), block(p.b, cb)) {
+                    (Some(x), Some(y)) => fisher_z(pearson(x, y)),
+                    _ => f64::NAN,
+                };
+                *slot = Contribution {
+                    channel_a: ca,
+                    channel_b: cb,
+                    value,
+                    ..MISSING
+                };
+            }
+        });
+}

@@ -1,0 +1,345 @@
+//! Tables on disk: the one place that talks to polars.
+//!
+//! Every table nevermet reads (members, events, channels, quality, recordings) and writes
+//! (results, pairs, dyads, synchrony, demo files) goes through here, so the rest of the code
+//! handles plain Rust vectors and the file format (TSV, CSV, Parquet) is chosen by extension.
+//! Reading keeps text as text: the loader parses numbers itself so that a bad cell can be
+//! reported with its file, row and column instead of a generic parser message.
+
+use std::fs::File;
+use std::path::{Path, PathBuf};
+
+use polars::prelude::*;
+
+/// A table format, chosen from the file extension.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Format {
+    Tsv,
+    Csv,
+    Parquet,
+}
+
+impl Format {
+    /// The format a path's extension names, if it is one nevermet reads.
+    pub fn from_path(path: &Path) -> Option<Format> {
+        let ext = path.extension()?.to_str()?.to_ascii_lowercase();
+        match ext.as_str() {
+            "tsv" => Some(Format::Tsv),
+            "csv" => Some(Format::Csv),
+            "parquet" => Some(Format::Parquet),
+            _ => None,
+        }
+    }
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum TableError {
+    #[error("{path}: file not found")]
+    NotFound { path: PathBuf },
+    #[error("{path}: unsupported extension (use .tsv, .csv or .parquet)")]
+    UnknownFormat { path: PathBuf },
+    #[error("{path}: cannot read table: {message}")]
+    Read { path: PathBuf, message: String },
+    #[error("{path}: cannot write table: {message}")]
+    Write { path: PathBuf, message: String },
+}
+
+/// One column to write. Missing floats are NaN and are written as empty cells (null in Parquet),
+/// which R and pandas read as NA.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ColumnData {
+    Text(Vec<String>),
+    Float(Vec<f64>),
+    Int(Vec<i64>),
+    Bool(Vec<bool>),
+}
+
+impl ColumnData {
+    pub fn len(&self) -> usize {
+        match self {
+            ColumnData::Text(v) => v.len(),
+            ColumnData::Float(v) => v.len(),
+            ColumnData::Int(v) => v.len(),
+            ColumnData::Bool(v) => v.len(),
+        }
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+}
+
+/// An ordered set of named columns of equal length, ready to write.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Table {
+    pub columns: Vec<(String, ColumnData)>,
+}
+
+impl Table {
+    pub fn new() -> Self {
+        Table::default()
+    }
+
+    pub fn text(mut self, name: &str, values: Vec<String>) -> Self {
+        self.columns
+            .push((name.to_string(), ColumnData::Text(values)));
+        self
+    }
+
+    pub fn float(mut self, name: &str, values: Vec<f64>) -> Self {
+        self.columns
+            .push((name.to_string(), ColumnData::Float(values)));
+        self
+    }
+
+    pub fn int(mut self, name: &str, values: Vec<i64>) -> Self {
+        self.columns
+            .push((name.to_string(), ColumnData::Int(values)));
+        self
+    }
+
+    pub fn boolean(mut self, name: &str, values: Vec<bool>) -> Self {
+        self.columns
+            .push((name.to_string(), ColumnData::Bool(values)));
+        self
+    }
+
+    pub fn height(&self) -> usize {
+        self.columns.first().map_or(0, |(_, c)| c.len())
+    }
+}
+
+/// How floats are written to text formats.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct WriteOptions {
+    /// Digits after the decimal point; `None` writes the shortest text that reads back exactly.
+    pub float_precision: Option<usize>,
+}
+
+/// Writes a table in the format its extension names.
+pub fn write_table(table: &Table, path: &Path) -> Result<(), TableError> {
+    write_table_with(table, path, WriteOptions::default())
+}
+
+pub fn write_table_with(
+    table: &Table,
+    path: &Path,
+    options: WriteOptions,
+) -> Result<(), TableError> {
+    let format = Format::from_path(path).ok_or_else(|| TableError::UnknownFormat {
+        path: path.to_path_buf(),
+    })?;
+    let write_err = |message: String| TableError::Write {
+        path: path.to_path_buf(),
+        message,
+    };
+    let mut df = to_frame(table).map_err(|e| write_err(e.to_string()))?;
+    let file = File::create(path).map_err(|e| write_err(e.to_string()))?;
+    match format {
+        Format::Tsv | Format::Csv => {
+            let sep = if format == Format::Tsv { b'\t' } else { b',' };
+            let mut file = file;
+            CsvWriter::new(&mut file)
+                .include_header(true)
+                .with_separator(sep)
+                .with_float_precision(options.float_precision)
+                .with_line_terminator("\n".into())
+                .finish(&mut df)
+                .map_err(|e| write_err(e.to_string()))?;
+        }
+        Format::Parquet => {
+            ParquetWriter::new(file)
+                .finish(&mut df)
+                .map_err(|e| write_err(e.to_string()))?;
+        }
+    }
+    Ok(())
+}
+
+fn to_frame(table: &Table) -> PolarsResult<DataFrame> {
+    let height = table.height();
+    let mut cols = Vec::with_capacity(table.columns.len());
+    for (name, data) in &table.columns {
+        let name: PlSmallStr = name.as_str().into();
+        let col = match data {
+            ColumnData::Text(v) => Column::new(name, v.as_slice()),
+            ColumnData::Float(v) => {
+                let opt: Vec<Option<f64>> = v
+                    .iter()
+                    .map(|x| if x.is_nan() { None } else { Some(*x) })
+                    .collect();
+                Column::new(name, opt)
+            }
+            ColumnData::Int(v) => Column::new(name, v.as_slice()),
+            ColumnData::Bool(v) => Column::new(name, v.as_slice()),
+        };
+        cols.push(col);
+    }
+    DataFrame::new(height, cols)
+}
+
+/// A column as read: text tables give text, Parquet numeric columns give numbers.
+#[derive(Clone, Debug, PartialEq)]
+pub enum RawColumn {
+    Text(Vec<Option<String>>),
+    Number(Vec<Option<f64>>),
+}
+
+impl RawColumn {
+    pub fn len(&self) -> usize {
+        match self {
+            RawColumn::Text(v) => v.len(),
+            RawColumn::Number(v) => v.len(),
+        }
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The cell as text (numbers printed); `None` for an empty cell.
+    pub fn text(&self, row: usize) -> Option<String> {
+        match self {
+            RawColumn::Text(v) => v[row].clone(),
+            RawColumn::Number(v) => v[row].map(|x| x.to_string()),
+        }
+    }
+}
+
+/// A table as read from disk, before any validation.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RawTable {
+    pub path: PathBuf,
+    pub headers: Vec<String>,
+    pub columns: Vec<RawColumn>,
+}
+
+impl RawTable {
+    pub fn height(&self) -> usize {
+        self.columns.first().map_or(0, RawColumn::len)
+    }
+
+    pub fn column(&self, name: &str) -> Option<&RawColumn> {
+        let i = self.headers.iter().position(|h| h == name)?;
+        Some(&self.columns[i])
+    }
+
+    pub fn has(&self, name: &str) -> bool {
+        self.headers.iter().any(|h| h == name)
+    }
+}
+
+/// Reads a table in the format its extension names. Text formats are read with every column as
+/// text (no type inference), so the caller decides what a number is.
+pub fn read_table(path: &Path) -> Result<RawTable, TableError> {
+    if !path.is_file() {
+        return Err(TableError::NotFound {
+            path: path.to_path_buf(),
+        });
+    }
+    let format = Format::from_path(path).ok_or_else(|| TableError::UnknownFormat {
+        path: path.to_path_buf(),
+    })?;
+    let read_err = |message: String| TableError::Read {
+        path: path.to_path_buf(),
+        message,
+    };
+    let df = match format {
+        Format::Tsv | Format::Csv => {
+            let sep = if format == Format::Tsv { b'\t' } else { b',' };
+            CsvReadOptions::default()
+                .with_has_header(true)
+                .with_infer_schema_length(Some(0))
+                .with_raise_if_empty(false)
+                .map_parse_options(|o| o.with_separator(sep))
+                .try_into_reader_with_file_path(Some(path.to_path_buf()))
+                .and_then(|r| r.finish())
+                .map_err(|e| read_err(e.to_string()))?
+        }
+        Format::Parquet => {
+            let file = File::open(path).map_err(|e| read_err(e.to_string()))?;
+            ParquetReader::new(file)
+                .finish()
+                .map_err(|e| read_err(e.to_string()))?
+        }
+    };
+    from_frame(path, &df).map_err(|e| read_err(e.to_string()))
+}
+
+fn from_frame(path: &Path, df: &DataFrame) -> PolarsResult<RawTable> {
+    let mut headers = Vec::with_capacity(df.width());
+    let mut columns = Vec::with_capacity(df.width());
+    for col in df.columns() {
+        headers.push(col.name().trim().to_string());
+        let raw = if col.dtype().is_primitive_numeric() {
+            let f = col.cast(&DataType::Float64)?;
+            RawColumn::Number(f.f64()?.iter().collect())
+        } else {
+            let s = col.cast(&DataType::String)?;
+            RawColumn::Text(
+                s.str()?
+                    .iter()
+                    .map(|v| v.map(|x| x.trim().to_string()).filter(|x| !x.is_empty()))
+                    .collect(),
+            )
+        };
+        columns.push(raw);
+    }
+    Ok(RawTable {
+        path: path.to_path_buf(),
+        headers,
+        columns,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sample() -> Table {
+        Table::new()
+            .text("dyad", vec!["a".into(), "b".into()])
+            .float("value", vec![0.25, f64::NAN])
+            .int("block", vec![1, 2])
+            .boolean("real", vec![true, false])
+    }
+
+    #[test]
+    fn round_trip_in_every_format_gives_the_same_cells() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut seen = Vec::new();
+        for ext in ["tsv", "csv", "parquet"] {
+            let path = dir.path().join(format!("t.{ext}"));
+            write_table(&sample(), &path).unwrap();
+            let raw = read_table(&path).unwrap();
+            assert_eq!(raw.headers, vec!["dyad", "value", "block", "real"]);
+            let cells: Vec<Vec<Option<String>>> = (0..raw.headers.len())
+                .map(|c| (0..raw.height()).map(|r| raw.columns[c].text(r)).collect())
+                .collect();
+            seen.push(cells);
+        }
+        assert_eq!(seen[0], seen[1]);
+        // Parquet keeps numbers as numbers; the text of each cell still agrees.
+        assert_eq!(seen[0][0], seen[2][0]);
+        assert_eq!(seen[0][1], seen[2][1]);
+        assert_eq!(seen[0][1][1], None, "NaN is written as an empty cell");
+    }
+
+    #[test]
+    fn tsv_text_is_plain() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("t.tsv");
+        write_table(&sample(), &path).unwrap();
+        let text = std::fs::read_to_string(&path).unwrap();
+        assert_eq!(
+            text,
+            "dyad\tvalue\tblock\treal\na\t0.25\t1\ttrue\nb\t\t2\tfalse\n"
+        );
+    }
+
+    #[test]
+    fn missing_file_is_named() {
+        let err = read_table(Path::new("/nonexistent/x.tsv")).unwrap_err();
+        assert!(err.to_string().contains("/nonexistent/x.tsv"));
+    }
+}
