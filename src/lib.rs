@@ -9,6 +9,10 @@ pub mod cli;
 pub mod commands;
 pub mod demo;
 pub mod engine;
+pub mod inference;
+pub mod pairing;
+pub mod pipeline;
+pub mod report;
 pub mod spectral;
 pub mod study;
 pub mod table;
@@ -26,9 +30,9 @@ pub fn run(command: cli::Command) -> anyhow::Result<ExitCode> {
     match command {
         Command::Demo(a) => commands::demo::demo(&a),
         Command::Check(a) => commands::check::check(&a),
-        Command::Plan(_) | Command::Run(_) | Command::Replay(_) => {
-            anyhow::bail!("this command is not available in this build")
-        }
+        Command::Plan(a) => commands::plan::plan(&a),
+        Command::Run(a) => commands::run::run(&a),
+        Command::Replay(a) => commands::replay::replay(&a),
     }
 }
 

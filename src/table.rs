@@ -162,7 +162,14 @@ fn to_frame(table: &Table) -> PolarsResult<DataFrame> {
     for (name, data) in &table.columns {
         let name: PlSmallStr = name.as_str().into();
         let col = match data {
-            ColumnData::Text(v) => Column::new(name, v.as_slice()),
+            ColumnData::Text(v) => {
+                // An empty string is written as an empty cell, not as `""`.
+                let opt: Vec<Option<&str>> = v
+                    .iter()
+                    .map(|x| (!x.is_empty()).then_some(x.as_str()))
+                    .collect();
+                Column::new(name, opt)
+            }
             ColumnData::Float(v) => {
                 let opt: Vec<Option<f64>> = v
                     .iter()

@@ -2,3 +2,6 @@
 
 pub mod check;
 pub mod demo;
+pub mod plan;
+pub mod replay;
+pub mod run;

@@ -35,7 +35,10 @@ impl Kind {
 }
 
 /// The schema: every section, whether it is an array of tables, and its keys.
-const SECTIONS: &[(&str, bool, &[(&str, Kind)])] = &[
+/// A section: its name, whether it is an array of tables, and its keys with their kinds.
+type Section = (&'static str, bool, &'static [(&'static str, Kind)]);
+
+const SECTIONS: &[Section] = &[
     (
         "study",
         false,
@@ -201,6 +204,20 @@ pub struct Inference {
     pub family: Vec<Axis>,
     pub bootstrap: usize,
     pub alternative: AlternativeName,
+}
+
+impl Inference {
+    /// The correction as written in the configuration.
+    pub fn correction_label(&self) -> &'static str {
+        match self.correction {
+            CorrectionName::Maxstat => "maxstat",
+            CorrectionName::Holm => "holm",
+            CorrectionName::Bh => "bh",
+            CorrectionName::By => "by",
+            CorrectionName::Bonferroni => "bonferroni",
+            CorrectionName::None => "none",
+        }
+    }
 }
 
 /// The resolved configuration: every value checked, every default filled in.
@@ -605,7 +622,7 @@ impl Reader<'_> {
             ChannelPairs::Same,
         );
         let omega0 = self.number(s, "synchrony", "omega0").unwrap_or(6.0);
-        if !(omega0 >= 5.0 && omega0 <= 20.0) {
+        if !(5.0..=20.0).contains(&omega0) {
             self.problems.push(
                 Problem::in_file(
                     self.file,
@@ -749,7 +766,7 @@ impl Reader<'_> {
                 }
                 continue;
             };
-            if !(lo > 0.0) || lo >= hi {
+            if lo.is_nan() || lo <= 0.0 || lo >= hi {
                 self.problems.push(
                     Problem::in_file(
                         self.file,

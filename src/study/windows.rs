@@ -191,8 +191,8 @@ pub fn check_nan(
     bad: &[Vec<bool>],
     problems: &mut Problems,
 ) {
-    for (m, member) in members.iter().enumerate() {
-        let Some(rec) = &recordings[m] else { continue };
+    for (m, (member, rec)) in members.iter().zip(recordings).enumerate() {
+        let Some(rec) = rec else { continue };
         for (s, signal) in rec.signals.iter().enumerate() {
             let Some(signal) = signal else { continue };
             if bad[m][s] {

@@ -1,0 +1,41 @@
+//! `nevermet plan`: the pairing audit, and with `--out` the files `pairs.tsv` and `plan.json`.
+
+use std::process::ExitCode;
+
+use anyhow::Context;
+
+use crate::cli::PlanArgs;
+use crate::pairing;
+use crate::pipeline;
+use crate::report::{self, plan::PlanAudit};
+use crate::study;
+
+pub fn plan(args: &PlanArgs) -> anyhow::Result<ExitCode> {
+    let study = study::load(&args.study)?;
+    let plan = match pipeline::build_plan(&study) {
+        Ok(p) => p,
+        Err(problems) => {
+            eprintln!("{} pairing problem(s):", problems.len());
+            for p in &problems {
+                eprintln!("  - {p}");
+            }
+            return Ok(ExitCode::from(crate::EXIT_FAILURE));
+        }
+    };
+    let counts = plan.counts();
+    let rc = plan.count_repairings();
+    let (method, reason) = pairing::choose_method(&plan, study.config.inference.permutations);
+    let audit = PlanAudit::new(&study, &plan, &counts, &rc, method, reason);
+    print!("{audit}");
+    if let Some(out) = &args.out {
+        std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
+        report::tables::pairs(&study, &plan, &out.join("pairs.tsv"))?;
+        report::write_json(&audit, &out.join("plan.json"))?;
+        println!(
+            "wrote {} and {}",
+            out.join("pairs.tsv").display(),
+            out.join("plan.json").display()
+        );
+    }
+    Ok(ExitCode::SUCCESS)
+}

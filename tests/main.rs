@@ -1,0 +1,7 @@
+//! One integration-test binary (one link step): every module runs the real `nevermet` binary
+//! on real folders, or calls the library against an outside reference.
+
+mod util;
+
+mod errors;
+mod loading;
