@@ -90,7 +90,10 @@ fn headless(browser: &Path, page: &Path, mode: &str, work: &Path) -> Run {
     };
     let stdout = std::fs::read_to_string(&out_path).expect("reading browser stdout");
     let stderr = std::fs::read_to_string(&err_path).expect("reading browser stderr");
-    assert!(status.success(), "chromium {mode} failed ({status}):\n{stderr}");
+    assert!(
+        status.success(),
+        "chromium {mode} failed ({status}):\n{stderr}"
+    );
     Run { stdout, stderr }
 }
 
@@ -180,7 +183,8 @@ fn check_page(page: &Path) -> Option<Seen> {
     let png = std::fs::read(&shot).expect("the screenshot was not written");
     assert!(!png.is_empty(), "empty screenshot");
     assert_eq!(png_size(&png), WINDOW, "screenshot size");
-    assert!(console_errors(&run.stderr).is_empty(), "{}", run.stderr);
+    let errors = console_errors(&run.stderr);
+    assert!(errors.is_empty(), "console errors: {errors:#?}");
     if let Some(dir) = std::env::var_os("NEVERMET_BROWSER_SHOTS") {
         let name = page.file_stem().map_or("page".into(), |s| s.to_owned());
         let keep = Path::new(&dir).join(name).with_extension("png");
@@ -204,7 +208,10 @@ fn check_page(page: &Path) -> Option<Seen> {
     assert_eq!(parsed, written, "methods text changed in parsing");
 
     // No label turned into markup: the page has no script element at all.
-    assert!(!dom.to_lowercase().contains("<script"), "a script element was parsed");
+    assert!(
+        !dom.to_lowercase().contains("<script"),
+        "a script element was parsed"
+    );
 
     let significant = significant_cells(&source);
     for id in &significant {

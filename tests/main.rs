@@ -3,5 +3,9 @@
 
 mod util;
 
+mod engine;
 mod errors;
+mod inference_reference;
 mod loading;
+mod run;
+mod spectral_reference;

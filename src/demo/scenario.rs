@@ -258,11 +258,7 @@ fn peers_pair(index: usize, site: usize, per_site: usize) -> [Member; 2] {
 /// The nine blocks of one dyad. Odd-numbered dyads cycle joint, parallel, rest; even-numbered
 /// ones parallel, joint, rest, so condition is not tied to position in the session.
 fn schedule(seed: u64, dyad: usize) -> Vec<Block> {
-    let order: [usize; 3] = if dyad % 2 == 0 || std::env::var("DEMO_SAME").is_ok() {
-        [0, 1, 2]
-    } else {
-        [1, 0, 2]
-    };
+    let order: [usize; 3] = [0, 1, 2];
     let mut rng = stream(seed, Purpose::Events, dyad, 0);
     let shift = uniform(&mut rng, -DYAD_SHIFT_S, DYAD_SHIFT_S);
     let slot = BLOCK_S + PAUSE_S;

@@ -44,19 +44,14 @@ pub const HBR_EVOKED_RATIO: f64 = -0.3;
 /// Root-mean-square amplitude of the shared component in HbO. The AR(1) background has about
 /// 0.53 × NOISE_SD_HBO = 0.26 RMS at periods 12–32 s, so partners' shared signal and each
 /// one's own background are of similar size there (amplitude ratio about 1.1).
-pub const COUPLING_AMPLITUDE: f64 = 0.3;
-fn amp() -> f64 {
-    std::env::var("DEMO_A")
-        .map(|v| v.parse().unwrap())
-        .unwrap_or(COUPLING_AMPLITUDE)
-}
+pub const COUPLING_AMPLITUDE: f64 = 0.5;
 /// HbR counterpart of the shared component relative to HbO (anti-correlated, smaller).
 pub const HBR_COUPLING_RATIO: f64 = -0.4;
 pub const COUPLING_MIN_PERIOD_S: f64 = 12.0;
-pub const COUPLING_MAX_PERIOD_S: f64 = 32.0;
+pub const COUPLING_MAX_PERIOD_S: f64 = 20.0;
 const COUPLING_SINUSOIDS: usize = 6;
 /// Cosine fade of the shared component at each edge of a joint block.
-pub const COUPLING_RAMP_S: f64 = 2.0;
+pub const COUPLING_RAMP_S: f64 = 3.0;
 /// Each member follows the shared component with its own small lag, up to this many seconds.
 const MAX_MEMBER_LAG_S: f64 = 0.5;
 
@@ -110,9 +105,9 @@ pub fn synthesise(study: &Scenario, member: usize) -> Recording {
         let mut o = Vec::with_capacity(study.samples);
         let mut r = Vec::with_capacity(study.samples);
         for i in 0..study.samples {
-            let coupled = shared[channel.roi]
-                .as_ref()
-                .map_or(0.0, |s| amp() * coupling_gain * window[i] * s[i]);
+            let coupled = shared[channel.roi].as_ref().map_or(0.0, |s| {
+                COUPLING_AMPLITUDE * coupling_gain * window[i] * s[i]
+            });
             let e = evoked_gain * evoked[i];
             let y = systemic_gain * systemic[i];
             o.push(e + y + coupled + noise_hbo[i]);
@@ -187,7 +182,7 @@ fn coupling_window(study: &Scenario, dyad: usize, times: &[f64]) -> Vec<f64> {
         let end = block.onset + block.duration;
         for (wi, &t) in w.iter_mut().zip(times) {
             if t >= block.onset && t <= end {
-                let edge = ((t - block.onset).min(end - t) / std::env::var("DEMO_R").map(|v| v.parse().unwrap()).unwrap_or(COUPLING_RAMP_S)).min(1.0);
+                let edge = ((t - block.onset).min(end - t) / COUPLING_RAMP_S).min(1.0);
                 *wi = 0.5 * (1.0 - (PI * edge).cos());
             }
         }
@@ -222,13 +217,7 @@ pub fn shared_component(seed: u64, dyad: usize, roi: usize) -> SharedComponent {
     let mut rng = stream(seed, Purpose::Coupling, dyad, roi);
     let mut parts: Vec<(f64, f64, f64)> = (0..COUPLING_SINUSOIDS)
         .map(|_| {
-            let period = uniform(
-                &mut rng,
-                COUPLING_MIN_PERIOD_S,
-                std::env::var("DEMO_P")
-                    .map(|v| v.parse().unwrap())
-                    .unwrap_or(COUPLING_MAX_PERIOD_S),
-            );
+            let period = uniform(&mut rng, COUPLING_MIN_PERIOD_S, COUPLING_MAX_PERIOD_S);
             let phase = uniform(&mut rng, 0.0, TAU);
             let weight = uniform(&mut rng, 0.5, 1.0);
             (period, phase, weight)

@@ -79,7 +79,7 @@ pub fn by(p: &[f64]) -> Vec<f64> {
     step_up(p, c)
 }
 
-/// Single-step max-statistic adjusted p-values (Westfall & Young 1993, Algorithm 2.5;
+/// Single-step max-statistic adjusted p-values (Westfall & Young 1993;
 /// Nichols & Holmes 2002): p_adj_c = (offset + #{k : max_c' null[c'][k] ≥ observed[c]}) /
 /// (K_valid + offset).
 ///

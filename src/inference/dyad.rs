@@ -1,8 +1,9 @@
 //! Dyad-level tests: the dyad contrast of one cell (each dyad's real value minus the mean
 //! of its own pseudo-pairs, tested by a one-sample t-test and by sign flips) and the
 //! condition contrasts (the per-dyad difference of two conditions' dyad contrasts, a
-//! paired test). Owns the per-dyad differences and the flip p-values of a family; the
-//! family grouping and the p-value adjustments are the caller's.
+//! paired test). Owns the per-dyad differences and the flip p-values of a family (with
+//! their max-statistic adjustment, computed by `correction`); the family grouping and the
+//! p-value procedures are the caller's.
 
 use super::correction::{maxstat, permutation_p};
 use super::layout::Prepared;

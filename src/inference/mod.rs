@@ -9,7 +9,9 @@
 //! parallel task is a pure function of its inputs, results are collected in input order,
 //! and every random stream is a pure function of (seed, task index).
 
+mod adjust;
 mod bootstrap;
+mod contrasts;
 pub mod correction;
 mod dyad;
 mod family;
@@ -33,7 +35,7 @@ pub use types::{
     TestKind,
 };
 
-use dyad::{ContrastCell, DyadCell, FlipOutcome};
+use dyad::DyadCell;
 use layout::Prepared;
 use repairing::GroupTest;
 use signflip::FlipSet;
@@ -68,7 +70,7 @@ pub fn try_infer(
         .collect();
 
     // Re-pairing group test: adjust within families.
-    let repair_adj = adjust_repairing(cells, &per_cell, cfg, &mut warnings);
+    let repair_adj = adjust::adjust_repairing(cells, &per_cell, cfg, &mut warnings);
 
     // Dyad contrast: sign flips and adjustment within families. The Monte Carlo flip set
     // is built at most once and shared by every family that needs it.
@@ -83,7 +85,7 @@ pub fn try_infer(
         .collect();
     let dyad_p: Vec<f64> = per_cell.iter().map(|c| c.dyad.test.p).collect();
     let dyad_items: Vec<Vec<(usize, f64)>> = per_cell.iter().map(|c| c.dyad.items()).collect();
-    let (dyad_flip_p, dyad_adj) = adjust_flipped(
+    let (dyad_flip_p, dyad_adj) = adjust::adjust_flipped(
         &dyad_members,
         |i| (cells[i].key.condition.as_str(), &cells[i].key),
         &dyad_p,
@@ -96,7 +98,7 @@ pub fn try_infer(
 
     // Condition contrasts.
     let (contrast_rows, mut contrast_warnings) =
-        run_contrasts(cells, &per_cell, &prep, cfg, &random);
+        contrasts::run_contrasts(cells, &per_cell, &prep, cfg, &random);
     warnings.append(&mut contrast_warnings);
     if cfg.correction == Correction::MaxStat && cfg.sign_flips == 0 {
         warnings.push(
@@ -109,18 +111,12 @@ pub fn try_infer(
     let mut results = Vec::with_capacity(2 * cells.len());
     let mut dyads = Vec::with_capacity(cells.len() * prep.n_dyads);
     let mut nulls = Vec::with_capacity(cells.len());
-    for (
-        i,
-        (
-            cell,
-            CellOutcome {
-                group: g,
-                ci,
-                dyad: dc,
-            },
-        ),
-    ) in cells.iter().zip(per_cell).enumerate()
-    {
+    for (i, (cell, outcome)) in cells.iter().zip(per_cell).enumerate() {
+        let CellOutcome {
+            group: g,
+            ci,
+            dyad: dc,
+        } = outcome;
         if let Some(why) = &g.untestable {
             warnings.push(format!(
                 "repairing test untestable for cell {}: {why}",
@@ -160,11 +156,11 @@ pub fn try_infer(
 }
 
 /// Everything computed for one cell before the families are formed.
-struct CellOutcome {
-    group: GroupTest,
+pub(crate) struct CellOutcome {
+    pub group: GroupTest,
     /// Bootstrap interval of the group test's excess.
-    ci: (f64, f64),
-    dyad: DyadCell,
+    pub ci: (f64, f64),
+    pub dyad: DyadCell,
 }
 
 /// The per-cell work: group test, its bootstrap interval (stream (seed, cell index)) and
@@ -226,218 +222,6 @@ fn input_warnings(prep: &Prepared, cells: &[CellMatrix], cfg: &InferenceConfig) 
         w.push("a bootstrap of one resample gives no interval".to_owned());
     }
     w
-}
-
-/// Adjusted p of every cell's group test (NaN for untestable cells).
-fn adjust_repairing(
-    cells: &[CellMatrix],
-    per_cell: &[CellOutcome],
-    cfg: &InferenceConfig,
-    warnings: &mut Vec<String>,
-) -> Vec<f64> {
-    let mut adj = vec![f64::NAN; cells.len()];
-    let members: Vec<usize> = (0..cells.len())
-        .filter(|&i| per_cell[i].group.untestable.is_none())
-        .collect();
-    let families = family::group(
-        members
-            .iter()
-            .map(|&i| (cells[i].key.condition.as_str(), &cells[i].key)),
-        &cfg.family,
-    );
-    for fam in families {
-        let idx: Vec<usize> = fam.iter().map(|&m| members[m]).collect();
-        let values = if cfg.correction == Correction::MaxStat {
-            let (observed, nulls): (Vec<f64>, Vec<Vec<f64>>) = idx
-                .par_iter()
-                .map(|&i| {
-                    let g = &per_cell[i].group;
-                    let z: Vec<f64> = g
-                        .null
-                        .iter()
-                        .map(|&t| g.standardise(t, cfg.alternative))
-                        .collect();
-                    (g.standardise(g.observed, cfg.alternative), z)
-                })
-                .unzip();
-            if observed.iter().any(|z| z.is_infinite()) {
-                warnings.push(
-                    "a repairing null without spread was standardised to zero for maxstat"
-                        .to_owned(),
-                );
-            }
-            let scale = 1.0
-                + observed
-                    .iter()
-                    .filter(|x| x.is_finite())
-                    .fold(0.0f64, |m, x| m.max(x.abs()));
-            let refs: Vec<&[f64]> = nulls.iter().map(|n| n.as_slice()).collect();
-            correction::maxstat(&observed, &refs, false, scale)
-        } else {
-            let p: Vec<f64> = idx.iter().map(|&i| per_cell[i].group.p).collect();
-            correction::adjust(&p, cfg.correction).unwrap_or_else(|| vec![f64::NAN; p.len()])
-        };
-        for (&i, v) in idx.iter().zip(values) {
-            adj[i] = v;
-        }
-    }
-    adj
-}
-
-/// Sign-flip p and adjusted p of a set of dyad-level tests. `members` are the testable
-/// entries, `scope_key` gives each its family scope and cell key, `p` the t-test p used by
-/// the p-value procedures, `items` the per-dyad values flipped.
-#[allow(clippy::too_many_arguments)]
-fn adjust_flipped<'a>(
-    members: &[usize],
-    scope_key: impl Fn(usize) -> (&'a str, &'a CellKey),
-    p: &[f64],
-    items: &[Vec<(usize, f64)>],
-    alternative: Alternative,
-    prep: &Prepared,
-    cfg: &InferenceConfig,
-    random: &dyn Fn() -> FlipSet,
-) -> (Vec<f64>, Vec<f64>) {
-    let mut flip_p = vec![f64::NAN; p.len()];
-    let mut adj = vec![f64::NAN; p.len()];
-    let families = family::group(members.iter().map(|&i| scope_key(i)), &cfg.family);
-    for fam in families {
-        let idx: Vec<usize> = fam.iter().map(|&m| members[m]).collect();
-        let fam_items: Vec<Vec<(usize, f64)>> = idx.iter().map(|&i| items[i].clone()).collect();
-        let FlipOutcome { p: fp, p_maxstat } = dyad::flip_family(
-            &fam_items,
-            prep.n_dyads,
-            cfg.sign_flips,
-            alternative,
-            cfg.correction == Correction::MaxStat,
-            random,
-        );
-        let values = if cfg.correction == Correction::MaxStat {
-            p_maxstat
-        } else {
-            let fam_p: Vec<f64> = idx.iter().map(|&i| p[i]).collect();
-            correction::adjust(&fam_p, cfg.correction).unwrap_or_else(|| vec![f64::NAN; idx.len()])
-        };
-        for ((&i, a), f) in idx.iter().zip(values).zip(fp) {
-            adj[i] = a;
-            flip_p[i] = f;
-        }
-    }
-    (flip_p, adj)
-}
-
-/// Every condition contrast over every (chromophore, band, roi) that both conditions have,
-/// in contrast order and then in the input order of condition A's cells.
-fn run_contrasts(
-    cells: &[CellMatrix],
-    per_cell: &[CellOutcome],
-    prep: &Prepared,
-    cfg: &InferenceConfig,
-    random: &dyn Fn() -> FlipSet,
-) -> (Vec<ContrastRow>, Vec<String>) {
-    let mut warnings = Vec::new();
-    let mut first: HashMap<(&str, &str, &str, &str), usize> = HashMap::new();
-    for (i, c) in cells.iter().enumerate() {
-        let k = &c.key;
-        first
-            .entry((&k.condition, &k.chromophore, &k.band, &k.roi))
-            .or_insert(i);
-    }
-    // (contrast index, cell of condition A, outcome)
-    let mut entries: Vec<(usize, usize, ContrastCell)> = Vec::new();
-    for (s, spec) in cfg.contrasts.iter().enumerate() {
-        let mut any = false;
-        for (ia, ca) in cells.iter().enumerate() {
-            let k = &ca.key;
-            if k.condition != spec.condition_a
-                || first[&(
-                    k.condition.as_str(),
-                    k.chromophore.as_str(),
-                    k.band.as_str(),
-                    k.roi.as_str(),
-                )] != ia
-            {
-                continue;
-            }
-            any = true;
-            let Some(&ib) = first.get(&(
-                spec.condition_b.as_str(),
-                k.chromophore.as_str(),
-                k.band.as_str(),
-                k.roi.as_str(),
-            )) else {
-                warnings.push(format!(
-                    "contrast {}: condition {} has no cell for chromophore={} band={} roi={}",
-                    spec.name, spec.condition_b, k.chromophore, k.band, k.roi
-                ));
-                continue;
-            };
-            let cc = dyad::contrast_cell(&per_cell[ia].dyad, &per_cell[ib].dyad, cfg.alpha);
-            if let Some(why) = &cc.untestable {
-                warnings.push(format!(
-                    "contrast {} untestable for chromophore={} band={} roi={}: {why}",
-                    spec.name, k.chromophore, k.band, k.roi
-                ));
-            }
-            entries.push((s, ia, cc));
-        }
-        if !any {
-            warnings.push(format!(
-                "contrast {}: condition {} has no cells",
-                spec.name, spec.condition_a
-            ));
-        }
-    }
-    let members: Vec<usize> = (0..entries.len())
-        .filter(|&e| entries[e].2.untestable.is_none())
-        .collect();
-    let p: Vec<f64> = entries.iter().map(|e| e.2.test.p).collect();
-    let items: Vec<Vec<(usize, f64)>> = entries.iter().map(|e| e.2.items.clone()).collect();
-    let (flip_p, adj) = adjust_flipped(
-        &members,
-        |e| {
-            (
-                cfg.contrasts[entries[e].0].name.as_str(),
-                &cells[entries[e].1].key,
-            )
-        },
-        &p,
-        &items,
-        Alternative::TwoSided,
-        prep,
-        cfg,
-        random,
-    );
-    let rows = entries
-        .iter()
-        .enumerate()
-        .map(|(e, (s, ia, cc))| {
-            let spec = &cfg.contrasts[*s];
-            let k = &cells[*ia].key;
-            let t = &cc.test;
-            ContrastRow {
-                contrast: spec.name.clone(),
-                condition_a: spec.condition_a.clone(),
-                condition_b: spec.condition_b.clone(),
-                chromophore: k.chromophore.clone(),
-                band: k.band.clone(),
-                roi: k.roi.clone(),
-                n_dyads: t.n,
-                mean_difference: t.mean,
-                effect_size: t.dz,
-                ci_low: t.ci_low,
-                ci_high: t.ci_high,
-                statistic: t.t,
-                df: t.df,
-                p: t.p,
-                p_signflip: flip_p[e],
-                p_adj: adj[e],
-                correction: cfg.correction,
-                significant: adj[e] < cfg.alpha,
-            }
-        })
-        .collect();
-    (rows, warnings)
 }
 
 fn repairing_row(

@@ -1,4 +1,4 @@
-//! Numeric helpers shared by the inference tests: mean and spread, percentile, tie-tolerant
+//! Numeric helpers shared by the inference procedures: mean and spread, percentile, tie-tolerant
 //! comparison and the seeded random streams. Owns no test logic of its own.
 
 use rand::SeedableRng;

@@ -90,12 +90,13 @@ mod tests {
     fn bits_agree_with_bool_reference() {
         let (nr, nc) = (5, 130);
         let mut m = BitMatrix::new(nr, nc);
-        let mut reference = vec![vec![false; nc]; nr];
-        for r in 0..nr {
-            for c in 0..nc {
-                if (r * 7 + c * 13) % 5 == 0 {
+        let reference: Vec<Vec<bool>> = (0..nr)
+            .map(|r| (0..nc).map(|c| (r * 7 + c * 13) % 5 == 0).collect())
+            .collect();
+        for (r, row) in reference.iter().enumerate() {
+            for (c, &x) in row.iter().enumerate() {
+                if x {
                     m.set(r, c);
-                    reference[r][c] = true;
                 }
             }
         }

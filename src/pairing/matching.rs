@@ -207,7 +207,7 @@ mod tests {
         let (members, rules) = family_scenario();
         let plan = PairPlan::build(&members, 10, &roles(), &rules).unwrap();
         let s = bipartite_start(&plan).unwrap();
-        let mut used = vec![false; 10];
+        let mut used = [false; 10];
         for (r, &c) in s.iter().enumerate() {
             assert!(plan.is_admissible(r, c as usize));
             assert!(!used[c as usize]);
@@ -224,9 +224,10 @@ mod tests {
         }
     }
 
-    // Source: Hall's condition, worked by hand. Adults A0, A1, A2 (family F) and child
-    // C3 (family G) … children C0, C1, C2 are family F, so adults A0..A2 can only meet
-    // C3: three rows, one column.
+    // Source: Hall's condition, worked by hand. Adults A0, A1, A2 and children C0, C1,
+    // C2 are all family F; A3 and C3 are family G. Under keep_apart family the adults
+    // A0..A2 can only meet C3: three rows, one column. Augmenting paths fail on the
+    // second of them, naming the two rows reached and their single column.
     #[test]
     fn hall_violation_is_named() {
         let a = Some("adult");
@@ -262,8 +263,8 @@ mod tests {
             }
             other => panic!("{other:?}"),
         }
-        // Peers: three members of family F in a triangle of dyads with one outsider pair
-        // … the same structure: a member of F can only meet the two G members.
+        // Peers: four members of family F in two dyads and one dyad of family G: the
+        // four F members can only meet the two G members (Tutte's condition fails).
         let ms = vec![
             m(0, "F0", None, &f),
             m(0, "F1", None, &f),

@@ -10,6 +10,25 @@
 //! member of several dyads). The *real pair* is the two members of one dyad; a
 //! *pseudo-pair* joins members of different dyads; a *re-pairing* assigns every member
 //! to exactly one admissible pseudo-pair.
+//!
+//! Flow: [`PairPlan::build`] checks the layout and rules and gives every candidate a
+//! [`Status`]; [`PairPlan::count_repairings`] says how many re-pairings exist;
+//! [`choose_method`] / [`draw_repairings`] draw them uniformly.
+//!
+//! Choices worth knowing:
+//! - A blank or missing attribute value never equals anything: it never triggers
+//!   keep_apart, and it always fails pair_within (a member with a blank pair_within
+//!   value therefore has no partner and the plan is refused, naming it).
+//! - Peers mode: `status(r, r)` is `Excluded([SameDyad])`; it is not a candidate and is
+//!   not counted. Real pairs are counted as `real`, never under a rule.
+//! - `Repairings::exact` is true only for complete enumeration (the exact permutation
+//!   distribution); rejection draws are exactly uniform but still a random sample.
+//!
+//! Module map: `rules` (one pair's reasons), `plan` (the grid, strata, member checks),
+//! `count` with `permanent`, `exclusion`, `estimate` (how many re-pairings), `matching`
+//! (one re-pairing, or why none), `enumerate`, `rejection`, `chain` (the three
+//! samplers), `sampler` (method choice, streams, parallel loop), `bigint`, `bits`
+//! (support), `error`.
 
 use std::collections::BTreeMap;
 
@@ -19,7 +38,10 @@ mod chain;
 mod count;
 mod enumerate;
 mod error;
+mod estimate;
+mod exclusion;
 mod matching;
+mod permanent;
 mod plan;
 mod rejection;
 mod rules;

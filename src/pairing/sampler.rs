@@ -23,7 +23,7 @@ use super::rejection::Proposer;
 
 /// Below this acceptance rate rejection sampling is judged too slow (a rule of thumb:
 /// about a thousand proposals per accepted draw).
-pub const MIN_ACCEPTANCE: f64 = 1e-3;
+const MIN_ACCEPTANCE: f64 = 1e-3;
 /// Proposals in the acceptance pilot when the count is not exact.
 const PILOT_PROPOSALS: usize = 20_000;
 /// Fixed seed of the burn-in pilot chain.
@@ -633,8 +633,7 @@ mod tests {
                 (plan, all)
             };
             let start = start_state(&plan).unwrap();
-            let (burn_in, why) = chain_burn_in(&plan, &start);
-            eprintln!("peers={peers}: {} states, {why}", all.len());
+            let (burn_in, _) = chain_burn_in(&plan, &start);
             let method = SamplerMethod::Chain {
                 burn_in,
                 moves: moves_text(peers),

@@ -75,7 +75,11 @@ fn interval(lo: f64, hi: f64) -> String {
 /// The significance marker: text as well as emphasis, so it survives greyscale printing and
 /// does not depend on colour vision.
 fn marker(significant: bool) -> &'static str {
-    if significant { "✓ yes" } else { "no" }
+    if significant {
+        "<td class=\"mark\">✓ yes</td>"
+    } else {
+        "<td class=\"mark\">no</td>"
+    }
 }
 
 const STYLE: &str = r#"
@@ -106,11 +110,11 @@ nav.toc a:hover { text-decoration: underline; }
 .scroll { overflow-x: auto; }
 table { border-collapse: collapse; font-size: .86rem; font-variant-numeric: tabular-nums;
   margin: .3rem 0 .6rem; }
-th, td { padding: .28rem .5rem; border-bottom: 1px solid var(--rule); text-align: left;
+th, td { padding: .28rem .4rem; border-bottom: 1px solid var(--rule); text-align: left;
   vertical-align: top; }
 thead th { border-bottom: 2px solid var(--ink); font-weight: 600; vertical-align: bottom; }
 td.n, th.n { text-align: right; }
-td.n { white-space: nowrap; }
+td.n, td.mark { white-space: nowrap; }
 tr.sig td { background: var(--sig); font-weight: 600; }
 table.kv th { font-weight: normal; color: var(--muted); border-bottom: 1px solid var(--rule); }
 table.kv td { font-weight: 600; }
@@ -309,7 +313,7 @@ fn row_open(significant: bool) -> &'static str {
     }
 }
 
-const SIG_LEGEND: &str = "<p class=\"legend\">✓ yes: significant, i.e. the adjusted p-value \
+const SIG_LEGEND: &str = "<p class=\"legend\">Sig. ✓ yes: significant, i.e. the adjusted p-value \
 is below the α stated in the methods; such rows are also set in bold. p: unadjusted \
 p-value; p adj.: after the correction named in the header or the row. CI: two-sided (1 − α) interval, a \
 percentile bootstrap over dyads for <em>repairing</em> and a t interval for the dyad-level \
@@ -349,7 +353,7 @@ fn section_results(out: &mut String, results: &[ResultLine]) {
     if shared.is_none() {
         cols.push(("Correction", false));
     }
-    cols.push(("Significant", false));
+    cols.push(("Sig.", false));
     out.push_str("<div class=\"scroll\">\n<table>\n");
     out.push_str(&head(&cols));
     out.push_str("<tbody>\n");
@@ -365,7 +369,7 @@ fn section_results(out: &mut String, results: &[ResultLine]) {
              <td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td>\
              <td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td>\
              <td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td>\
-             {correction}<td>{}</td></tr>",
+             {correction}{}</tr>",
             row_open(r.significant),
             escape(&r.condition),
             escape(&r.chromophore),
@@ -414,7 +418,7 @@ fn section_contrasts(out: &mut String, contrasts: &[ContrastLine]) {
         ("CI", true),
         ("p", true),
         ("p adj.", true),
-        ("Significant", false),
+        ("Sig.", false),
     ]));
     out.push_str("<tbody>\n");
     for c in contrasts {
@@ -422,7 +426,7 @@ fn section_contrasts(out: &mut String, contrasts: &[ContrastLine]) {
             out,
             "{}<td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"n\">{}</td>\
              <td class=\"n\">{}</td><td class=\"n\">{}</td><td class=\"n\">{}</td>\
-             <td class=\"n\">{}</td><td class=\"n\">{}</td><td>{}</td></tr>",
+             <td class=\"n\">{}</td><td class=\"n\">{}</td>{}</tr>",
             row_open(c.significant),
             escape(&c.contrast),
             escape(&c.chromophore),
@@ -438,10 +442,11 @@ fn section_contrasts(out: &mut String, contrasts: &[ContrastLine]) {
         );
     }
     out.push_str("</tbody>\n</table>\n</div>\n");
-    out.push_str(SIG_LEGEND);
     out.push_str(
         "<p class=\"legend\">Mean difference: mean over dyads of the difference between the \
-         two conditions' dyad contrasts (paired t-test); effect size Cohen's d<sub>z</sub>.</p>\n",
+         two conditions' dyad contrasts (paired t-test); effect size Cohen's d<sub>z</sub>; \
+         CI: two-sided (1 − α) t interval. Sig., p, p adj. and – as in the results \
+         table.</p>\n",
     );
     out.push_str("</section>\n");
 }
@@ -675,7 +680,7 @@ mod tests {
         assert!(page.contains("id=\"cell-1\""));
         assert_eq!(page.matches("class=\"cell\"").count(), 1);
         assert_eq!(page.matches("<tr class=\"sig\">").count(), 1);
-        assert_eq!(page.matches("<td>✓ yes</td>").count(), 1);
+        assert_eq!(page.matches("<td class=\"mark\">✓ yes</td>").count(), 1);
         assert!(page.contains("✓ significant"));
         // One histogram + one paired plot + the matrix.
         assert_eq!(page.matches("<svg").count(), 3);
@@ -708,7 +713,7 @@ mod tests {
             (0.41234, "0.412"),
             (0.05, "0.05"),
             (12.345, "12.3"),
-            (-3.14159, "-3.14"),
+            (-4.56789, "-4.57"),
             (999.7, "1000"),
             (12345.6, "12346"),
             (0.0012345, "0.00123"),

@@ -248,7 +248,7 @@ fn null_sentences(m: &MethodsInput) -> Vec<String> {
         "two-sided" => {
             "two-sided, counting re-pairings with |T* − mean T*| ≥ |T − mean T*|".to_owned()
         }
-        other => format!("{other}"),
+        other => other.to_owned(),
     };
     s.push(format!(
         "p-values were {direction}, as p = (b + 1)/(K + 1) with b such re-pairings among K \

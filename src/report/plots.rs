@@ -339,9 +339,8 @@ impl Grid {
         let label_step = ((9.0 / f64::from(cell)).ceil() as usize).max(1);
         let longest =
             |labels: &[String]| labels.iter().map(|l| l.chars().count()).max().unwrap_or(1);
-        // 0.62 em per character: an average sans-serif advance, slightly generous.
-        let text_len =
-            |n: usize| (n.min(MAX_LABEL_CHARS) as f64 * label_px * 0.62).ceil() as i32;
+        // 0.58 em per character: an average sans-serif advance, slightly generous.
+        let text_len = |n: usize| (n.min(MAX_LABEL_CHARS) as f64 * label_px * 0.58).ceil() as i32;
         // Room for the axis description (30 px) plus the longest label.
         let left = 30 + text_len(longest(&m.row_labels)) + 8;
         let top = 52 + text_len(longest(&m.col_labels)) + 8;
@@ -373,16 +372,28 @@ impl Grid {
     }
 }
 
-/// The 2-px outline of a real pair, drawn as a closed path because the SVG backend writes
-/// rectangles without a stroke width.
+/// The outline of a real pair: a 2-px dark square with a 1-px white one inside, so that it
+/// shows on the lightest and the darkest fill alike. Drawn as closed paths because the SVG
+/// backend writes rectangles without a stroke width.
 fn outline(
     root: &DrawingArea<SVGBackend<'_>, Shift>,
     (x0, y0): (i32, i32),
     (x1, y1): (i32, i32),
 ) -> Result<(), String> {
-    let corners = vec![(x0, y0), (x1, y0), (x1, y1), (x0, y1), (x0, y0)];
-    root.draw(&PathElement::new(corners, INK.stroke_width(2)))
-        .map_err(err("real pair outline"))
+    let square = |a: i32, b: i32, c: i32, d: i32| vec![(a, b), (c, b), (c, d), (a, d), (a, b)];
+    root.draw(&PathElement::new(
+        square(x0, y0, x1, y1),
+        INK.stroke_width(2),
+    ))
+    .map_err(err("real pair outline"))?;
+    if x1 - x0 > 8 {
+        root.draw(&PathElement::new(
+            square(x0 + 2, y0 + 2, x1 - 2, y1 - 2),
+            WHITE.stroke_width(1),
+        ))
+        .map_err(err("real pair outline"))?;
+    }
+    Ok(())
 }
 
 /// Draws the hatching of an excluded cell: diagonal strokes clipped to the square.

@@ -1,4 +1,4 @@
-//! Shared builders for the inference integration tests: hand-built layouts, a uniform
+//! Shared builders for the study-level inference tests: hand-built layouts, a uniform
 //! derangement sampler by rejection, and the shared-member null model
 //! value(r, c) = a_r + b_c + e_rc.
 

@@ -1,0 +1,212 @@
+//! `run` end to end: every output file, byte-identical reruns on 1 and 2 threads, `replay`,
+//! and the atomic output folder (refused, failed and interrupted runs lose nothing).
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+use crate::util::{TempStudy, bin, nevermet, stderr, stdout};
+
+pub const OUTPUTS: &[&str] = &[
+    "results.tsv",
+    "contrasts.tsv",
+    "dyads.tsv",
+    "pairs.tsv",
+    "plan.json",
+    "synchrony.parquet",
+    "report.html",
+    "manifest.json",
+];
+
+/// A small study with fewer re-pairings, so a full run takes seconds.
+fn quick_study() -> TempStudy {
+    let s = TempStudy::new();
+    s.edit("study.toml", |t| {
+        t.replace("permutations = 10000", "permutations = 2000")
+            .replace("bootstrap = 2000", "bootstrap = 300")
+    });
+    s
+}
+
+fn run(study: &TempStudy, out: &Path, extra: &[&str]) -> std::process::Output {
+    let toml = study.toml();
+    let mut args = vec![
+        "run",
+        toml.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+    ];
+    args.extend_from_slice(extra);
+    nevermet(&args)
+}
+
+fn leftovers(dir: &Path) -> Vec<PathBuf> {
+    std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| {
+            p.file_name()
+                .unwrap()
+                .to_string_lossy()
+                .contains("nevermet-partial")
+        })
+        .collect()
+}
+
+#[test]
+fn two_runs_on_one_and_two_threads_are_identical_and_replay_confirms() {
+    let s = quick_study();
+    let a = s.dir.path().join("out1");
+    let b = s.dir.path().join("out2");
+    let o = run(&s, &a, &["--threads", "1"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let summary = stdout(&o);
+    assert!(summary.contains("re-pairings"), "{summary}");
+    assert!(summary.contains("report.html"), "{summary}");
+    let o = run(&s, &b, &["--threads", "2"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    for f in OUTPUTS {
+        assert!(a.join(f).is_file(), "missing {f}");
+    }
+    for f in OUTPUTS.iter().filter(|f| **f != "manifest.json") {
+        assert_eq!(
+            std::fs::read(a.join(f)).unwrap(),
+            std::fs::read(b.join(f)).unwrap(),
+            "{f} differs between 1 and 2 threads"
+        );
+    }
+    let o = nevermet(&[
+        "replay",
+        a.join("manifest.json").to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert!(o.status.success(), "{}{}", stdout(&o), stderr(&o));
+    let text = stdout(&o);
+    assert!(text.contains("OK       results.tsv"), "{text}");
+    assert!(!text.contains("DIFFERS"), "{text}");
+}
+
+#[test]
+fn replay_names_a_changed_input_and_a_differing_output() {
+    let s = quick_study();
+    let out = s.dir.path().join("out");
+    let o = run(&s, &out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let manifest = out.join("manifest.json");
+    // A tampered output hash must be reported as DIFFERS with exit code 1.
+    let text = std::fs::read_to_string(&manifest).unwrap();
+    let mut m: serde_json::Value = serde_json::from_str(&text).unwrap();
+    m["outputs"]["results.tsv"] = serde_json::Value::String("0".repeat(64));
+    std::fs::write(&manifest, serde_json::to_string_pretty(&m).unwrap()).unwrap();
+    let o = nevermet(&["replay", manifest.to_str().unwrap(), "--quiet"]);
+    assert_eq!(o.status.code(), Some(1), "{}", stdout(&o));
+    assert!(
+        stdout(&o).contains("DIFFERS  results.tsv"),
+        "{}",
+        stdout(&o)
+    );
+    // A changed input is an error naming the file.
+    s.edit("events.tsv", |t| t.replacen("joint", "joint", 1) + "\n");
+    let o = nevermet(&["replay", manifest.to_str().unwrap(), "--quiet"]);
+    assert!(!o.status.success());
+    assert!(
+        stderr(&o).contains("events.tsv: input changed"),
+        "{}",
+        stderr(&o)
+    );
+}
+
+#[test]
+fn a_non_empty_output_folder_is_refused_without_force() {
+    let s = quick_study();
+    let out = s.dir.path().join("out");
+    std::fs::create_dir(&out).unwrap();
+    std::fs::write(out.join("keep.txt"), "precious").unwrap();
+    let o = run(&s, &out, &[]);
+    assert!(!o.status.success());
+    assert!(
+        stderr(&o).contains("exists and is not empty"),
+        "{}",
+        stderr(&o)
+    );
+    assert_eq!(
+        std::fs::read_to_string(out.join("keep.txt")).unwrap(),
+        "precious"
+    );
+    let o = run(&s, &out, &["--force"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(!out.join("keep.txt").exists());
+    assert!(out.join("results.tsv").exists());
+    assert!(leftovers(s.dir.path()).is_empty());
+}
+
+#[test]
+fn a_failed_run_with_force_keeps_the_old_results() {
+    let s = quick_study();
+    let out = s.dir.path().join("out");
+    std::fs::create_dir(&out).unwrap();
+    std::fs::write(out.join("keep.txt"), "precious").unwrap();
+    // Break the study so the run fails after the output folder was accepted.
+    let mut cells: Vec<String> = s
+        .line("events.tsv", 2)
+        .split('\t')
+        .map(String::from)
+        .collect();
+    cells[0] = "zz99".into();
+    s.set_line("events.tsv", 2, &cells.join("\t"));
+    let o = run(&s, &out, &["--force"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("unknown dyad \"zz99\""),
+        "{}",
+        stderr(&o)
+    );
+    assert_eq!(
+        std::fs::read_to_string(out.join("keep.txt")).unwrap(),
+        "precious"
+    );
+    assert!(
+        leftovers(s.dir.path()).is_empty(),
+        "staging folder left behind"
+    );
+}
+
+#[test]
+fn an_interrupted_run_leaves_no_output_folder() {
+    // A larger study so the run is still loading when the signal arrives.
+    let s = TempStudy::with_args(&["--dyads", "40"]);
+    let out = s.dir.path().join("out");
+    for signal in ["-INT", "-TERM"] {
+        let mut child = Command::new(bin())
+            .args([
+                "run",
+                s.toml().to_str().unwrap(),
+                "--out",
+                out.to_str().unwrap(),
+                "--quiet",
+            ])
+            .stdout(std::process::Stdio::null())
+            .stderr(std::process::Stdio::null())
+            .spawn()
+            .unwrap();
+        // Wait until the staging folder exists, then interrupt.
+        let start = std::time::Instant::now();
+        while leftovers(s.dir.path()).is_empty() {
+            assert!(start.elapsed().as_secs() < 30, "no staging folder appeared");
+            std::thread::sleep(std::time::Duration::from_millis(20));
+        }
+        std::thread::sleep(std::time::Duration::from_millis(300));
+        let status = Command::new("kill")
+            .args([signal, &child.id().to_string()])
+            .status()
+            .unwrap();
+        assert!(status.success());
+        let code = child.wait().unwrap();
+        assert!(!code.success(), "run finished before the signal ({signal})");
+        assert!(!out.exists(), "partial output folder after {signal}");
+        assert!(
+            leftovers(s.dir.path()).is_empty(),
+            "staging folder left after {signal}"
+        );
+    }
+}
