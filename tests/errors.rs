@@ -372,3 +372,28 @@ fn every_problem_is_reported_not_only_the_first() {
     s.set_line("events.tsv", 2, &cells.join("\t"));
     assert_fails_with(&s.check(), &["tp2.hbr", "zz99", "2 problem(s)"]);
 }
+
+#[test]
+fn a_member_left_without_admissible_partners_is_named() {
+    let s = TempStudy::new();
+    // Put every member in one family: keep_apart then forbids every pseudo-pair.
+    s.edit("members.tsv", |t| {
+        let mut out = Vec::new();
+        for (i, line) in t.lines().enumerate() {
+            let mut cells: Vec<String> = line.split('\t').map(String::from).collect();
+            if i > 0 {
+                cells[4] = "f-all".into();
+            }
+            out.push(cells.join("\t"));
+        }
+        out.join("\n") + "\n"
+    });
+    let o = s.check();
+    assert_fails_with(&o, &["keep_apart:family"]);
+    let first_member = {
+        let line = s.line("members.tsv", 1);
+        let c: Vec<&str> = line.split('\t').collect();
+        format!("{}:{}", c[0], c[2])
+    };
+    assert!(stderr(&o).contains(&first_member), "{}", stderr(&o));
+}

@@ -85,7 +85,7 @@ pub fn write_demo(opts: &DemoOptions, out: &Path) -> anyhow::Result<DemoSummary>
 }
 
 fn validate(opts: &DemoOptions) -> anyhow::Result<()> {
-    if opts.dyads < MIN_DYADS || opts.dyads > MAX_DYADS || opts.dyads % 2 != 0 {
+    if opts.dyads < MIN_DYADS || opts.dyads > MAX_DYADS || !opts.dyads.is_multiple_of(2) {
         bail!(
             "demo dyads must be an even number from {MIN_DYADS} to {MAX_DYADS} (got {}): the \
              dyads are split evenly over two sites and each site needs at least 4",

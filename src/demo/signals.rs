@@ -12,7 +12,7 @@
 //!   which every member shares and which therefore makes pseudo-pairs look synchronous too;
 //! - in `joint` blocks only, for the two members of a real dyad only, and in the prefrontal
 //!   and temporoparietal regions only: a slow component shared by the partners (periods
-//!   12–32 s, inside the 10–50 s task band), faded in and out over 2 s at the block edges.
+//!   12–20 s, inside the 10–50 s task band), faded in and out over 3 s at the block edges.
 //!
 //! HbR carries scaled, sign-reversed copies of the response, the systemic oscillations and the
 //! shared component, and independent noise of its own.
@@ -41,9 +41,12 @@ const HBR_SYSTEMIC_RATIO: f64 = -0.3;
 /// HbR block-locked response relative to HbO.
 pub const HBR_EVOKED_RATIO: f64 = -0.3;
 
-/// Root-mean-square amplitude of the shared component in HbO. The AR(1) background has about
-/// 0.53 × NOISE_SD_HBO = 0.26 RMS at periods 12–32 s, so partners' shared signal and each
-/// one's own background are of similar size there (amplitude ratio about 1.1).
+/// Root-mean-square amplitude of the shared component in HbO. Each member's own signal in the
+/// 10–50 s task band (AR(1) background, about 0.67 × NOISE_SD_HBO = 0.34 RMS, plus the Mayer
+/// wave, 0.21 RMS) is about 0.4 RMS, so shared and own signal are of similar size in the band
+/// (amplitude ratio about 1.25). The shared periods are kept short (12–20 s) because block
+/// coherence smooths over about one period: longer shared periods would carry the joint-block
+/// coupling across the 15 s pause into the estimate of the next (parallel) block.
 pub const COUPLING_AMPLITUDE: f64 = 0.5;
 /// HbR counterpart of the shared component relative to HbO (anti-correlated, smaller).
 pub const HBR_COUPLING_RATIO: f64 = -0.4;
@@ -322,11 +325,27 @@ mod tests {
 
     #[test]
     fn real_partners_share_slow_activity_only_where_the_truth_says() {
-        let study = Scenario::build(&DemoOptions::default());
+        // Expected sizes from the signal model, not from a run: after the band-pass, each
+        // member's own signal has about 0.1 power (AR(1) and a damped Mayer wave), the shared
+        // component 0.25 (COUPLING_AMPLITUDE²) and the block-locked response, common to every
+        // pair, a little less. Real partners in coupled cells should then correlate near 0.7
+        // and pseudo-pairs near 0.25; elsewhere both sit near 0.25. Three seeds, so the check
+        // is of the model rather than of one draw.
+        for seed in [20261201, 1, 77] {
+            let study = Scenario::build(&DemoOptions {
+                seed,
+                ..Default::default()
+            });
+            let report = compare_real_and_pseudo(&study);
+            println!("seed {seed}\n{report}");
+        }
+    }
+
+    fn compare_real_and_pseudo(study: &Scenario) -> String {
         let hz = study.sampling_hz;
         let filtered: Vec<Vec<Vec<f64>>> = (0..study.members.len())
             .map(|m| {
-                synthesise(&study, m)
+                synthesise(study, m)
                     .hbo
                     .iter()
                     .map(|x| band_pass(x, hz))
@@ -362,23 +381,22 @@ mod tests {
         let mut report = String::new();
         for (roi, r) in ROIS.iter().enumerate() {
             for condition in [joint, parallel] {
-                let re = mean_correlation(&study, &filtered, &real, roi, condition);
-                let ps = mean_correlation(&study, &filtered, &pseudo, roi, condition);
+                let re = mean_correlation(study, &filtered, &real, roi, condition);
+                let ps = mean_correlation(study, &filtered, &pseudo, roi, condition);
                 report += &format!(
                     "{} {}: real {re:.3} pseudo {ps:.3}\n",
                     r.name, CONDITIONS[condition].name
                 );
-                let coupled = r.coupled && condition == joint;
-                if coupled {
-                    // Shared and own signal of about equal size: correlation near 0.5 for real
-                    // partners, well clear of the pseudo-pairs.
-                    assert!(re - ps > 0.25, "{report}");
+                if r.coupled && condition == joint {
+                    assert!(re - ps > 0.3, "{report}");
                 } else {
-                    assert!((re - ps).abs() < 0.12, "{report}");
+                    // A mean of 24 correlations with few effective degrees of freedom each:
+                    // standard error about 0.06.
+                    assert!((re - ps).abs() < 0.15, "{report}");
                 }
             }
         }
-        println!("{report}");
+        report
     }
 
     #[test]

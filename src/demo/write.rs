@@ -268,6 +268,7 @@ struct Truth {
     noise_sd: NoiseSd,
     empty_channel: ChannelRef,
     flagged_channel: ChannelRef,
+    notes: [&'static str; 3],
 }
 
 #[derive(Serialize)]
@@ -310,6 +311,16 @@ struct ChannelRef {
     participant: String,
     channel: String,
 }
+
+/// What a reader of the truth file should know about how the effect shows up.
+const NOTES: [&str; 3] = [
+    "the shared component is added to both members of a real dyad only, in joint blocks only, \
+     faded in and out over 3 s inside each block; pseudo-pairs never share it",
+    "every member carries the block-locked response of its own dyad's design, so pseudo-pairs \
+     are synchronous too; the effect is real-pair synchrony above that",
+    "block coherence smooths over about one period, so a little of the joint coupling can \
+     reach the estimate of the parallel block that follows it 15 s later",
+];
 
 fn truth(study: &Scenario) -> Truth {
     let coupled_rois: Vec<&'static str> =
@@ -373,6 +384,7 @@ fn truth(study: &Scenario) -> Truth {
         },
         empty_channel: channel_ref(study.empty_channel),
         flagged_channel: channel_ref(study.flagged_channel),
+        notes: NOTES,
     }
 }
 
@@ -652,6 +664,45 @@ mod tests {
             .unwrap()
             .count();
         assert_eq!(recordings, 24);
+    }
+
+    #[test]
+    fn other_sizes_rates_and_channel_counts_are_written_consistently() {
+        let dir = tempfile::tempdir().unwrap();
+        for (i, (dyads, hz, cpr)) in [(8, 10.0, 1), (14, 2.5, 3)].into_iter().enumerate() {
+            let out = dir.path().join(format!("s{i}"));
+            let opts = DemoOptions {
+                dyads,
+                sampling_hz: hz,
+                channels_per_roi: cpr,
+                ..Default::default()
+            };
+            let summary = write_demo(&opts, &out).unwrap();
+            assert_eq!(summary.members, 2 * dyads);
+            let channels = cells(&out.join("channels.tsv"), "channel");
+            assert_eq!(channels.len(), 3 * cpr);
+            let raw = read_table(&out.join("recordings").join("t01_g101.csv")).unwrap();
+            assert_eq!(raw.headers.len(), 1 + 2 * 3 * cpr);
+            assert_eq!(raw.height(), (590.0 * hz) as usize);
+            let step: f64 = raw
+                .column("time")
+                .unwrap()
+                .text(1)
+                .unwrap()
+                .parse()
+                .unwrap();
+            assert!((step - 1.0 / hz).abs() < 1e-9, "time step {step}");
+            let text = std::fs::read_to_string(out.join("study.toml")).unwrap();
+            let doc: toml::Table = toml::from_str(&text).unwrap();
+            let min = doc["synchrony"]["min_channels_per_roi"]
+                .as_integer()
+                .unwrap();
+            assert_eq!(
+                min,
+                cpr.min(2) as i64,
+                "a region never needs more channels than it has"
+            );
+        }
     }
 
     #[test]
