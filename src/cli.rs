@@ -58,6 +58,9 @@ pub struct DemoArgs {
     /// Roles (grandparent-grandchild) or peers (adult strangers)
     #[arg(long, value_enum, default_value_t = ModeArg::Roles)]
     pub mode: ModeArg,
+    /// Strength of the real-pair coupling, as a multiple of the default (0: a null study)
+    #[arg(long, default_value_t = 1.0)]
+    pub coupling: f64,
 }
 
 #[derive(Debug, Args)]

@@ -3,6 +3,9 @@
 
 mod util;
 
+mod browser;
+mod calibration;
+mod demo;
 mod engine;
 mod errors;
 mod inference_reference;

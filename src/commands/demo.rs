@@ -15,6 +15,7 @@ pub fn demo(args: &DemoArgs) -> anyhow::Result<ExitCode> {
             ModeArg::Roles => DemoMode::Roles,
             ModeArg::Peers => DemoMode::Peers,
         },
+        coupling: args.coupling,
     };
     let summary = write_demo(&opts, &args.out)?;
     println!(

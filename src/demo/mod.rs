@@ -38,6 +38,9 @@ pub struct DemoOptions {
     pub channels_per_roi: usize,
     /// Which kind of study: grandparent–grandchild roles or adult strangers.
     pub mode: DemoMode,
+    /// Strength of the real-pair coupling as a multiple of the demo's built-in amplitude; 0
+    /// writes a null study (shared task responses, no coupling), for calibration checks.
+    pub coupling: f64,
 }
 
 impl Default for DemoOptions {
@@ -48,6 +51,7 @@ impl Default for DemoOptions {
             sampling_hz: 4.0,
             channels_per_roi: 2,
             mode: DemoMode::Roles,
+            coupling: 1.0,
         }
     }
 }
@@ -62,6 +66,7 @@ pub enum DemoMode {
 }
 
 /// What was written, so the caller can tell the user.
+#[derive(Clone, Debug)]
 pub struct DemoSummary {
     pub dyads: usize,
     /// Member rows (one person's recording within one dyad).
@@ -96,6 +101,12 @@ fn validate(opts: &DemoOptions) -> anyhow::Result<()> {
         bail!(
             "demo sampling rate must be between {MIN_SAMPLING_HZ} and {MAX_SAMPLING_HZ} Hz (got {})",
             opts.sampling_hz
+        );
+    }
+    if !(0.0..=10.0).contains(&opts.coupling) {
+        bail!(
+            "demo coupling must be between 0 and 10 (got {})",
+            opts.coupling
         );
     }
     if opts.channels_per_roi == 0 {

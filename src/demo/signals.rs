@@ -12,7 +12,7 @@
 //!   which every member shares and which therefore makes pseudo-pairs look synchronous too;
 //! - in `joint` blocks only, for the two members of a real dyad only, and in the prefrontal
 //!   and temporoparietal regions only: a slow component shared by the partners (periods
-//!   12–20 s, inside the 10–50 s task band), faded in and out over 3 s at the block edges.
+//!   10–16 s, inside the 10–50 s task band), faded in and out over 3 s at the block edges.
 //!
 //! HbR carries scaled, sign-reversed copies of the response, the systemic oscillations and the
 //! shared component, and independent noise of its own.
@@ -43,15 +43,16 @@ pub const HBR_EVOKED_RATIO: f64 = -0.3;
 
 /// Root-mean-square amplitude of the shared component in HbO. Each member's own signal in the
 /// 10–50 s task band (AR(1) background, about 0.67 × NOISE_SD_HBO = 0.34 RMS, plus the Mayer
-/// wave, 0.21 RMS) is about 0.4 RMS, so shared and own signal are of similar size in the band
-/// (amplitude ratio about 1.25). The shared periods are kept short (12–20 s) because block
+/// wave, 0.21 RMS) is about 0.4 RMS, so the shared signal is about three times a member's own
+/// in the band: a clear effect for a 12-dyad demo, where a correction over six cells and a
+/// condition contrast must find it. The shared periods are kept short (10–16 s) because block
 /// coherence smooths over about one period: longer shared periods would carry the joint-block
-/// coupling across the 15 s pause into the estimate of the next (parallel) block.
-pub const COUPLING_AMPLITUDE: f64 = 0.5;
+/// coupling across the 40 s pauses into the estimates of the neighbouring blocks.
+pub const COUPLING_AMPLITUDE: f64 = 1.2;
 /// HbR counterpart of the shared component relative to HbO (anti-correlated, smaller).
 pub const HBR_COUPLING_RATIO: f64 = -0.4;
-pub const COUPLING_MIN_PERIOD_S: f64 = 12.0;
-pub const COUPLING_MAX_PERIOD_S: f64 = 20.0;
+pub const COUPLING_MIN_PERIOD_S: f64 = 10.0;
+pub const COUPLING_MAX_PERIOD_S: f64 = 16.0;
 const COUPLING_SINUSOIDS: usize = 6;
 /// Cosine fade of the shared component at each edge of a joint block.
 pub const COUPLING_RAMP_S: f64 = 3.0;
@@ -109,7 +110,7 @@ pub fn synthesise(study: &Scenario, member: usize) -> Recording {
         let mut r = Vec::with_capacity(study.samples);
         for i in 0..study.samples {
             let coupled = shared[channel.roi].as_ref().map_or(0.0, |s| {
-                COUPLING_AMPLITUDE * coupling_gain * window[i] * s[i]
+                study.coupling_amplitude * coupling_gain * window[i] * s[i]
             });
             let e = evoked_gain * evoked[i];
             let y = systemic_gain * systemic[i];

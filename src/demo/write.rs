@@ -9,7 +9,7 @@ use anyhow::Context;
 use serde::Serialize;
 
 use crate::demo::scenario::{CONDITIONS, ROIS, SITES, Scenario};
-use crate::demo::signals::{self, COUPLING_AMPLITUDE, HBR_COUPLING_RATIO, HBR_EVOKED_RATIO};
+use crate::demo::signals::{self, HBR_COUPLING_RATIO, HBR_EVOKED_RATIO};
 use crate::demo::{DemoMode, DemoOptions};
 use crate::table::{Table, WriteOptions, write_table, write_table_with};
 
@@ -318,8 +318,9 @@ const NOTES: [&str; 3] = [
      faded in and out over 3 s inside each block; pseudo-pairs never share it",
     "every member carries the block-locked response of its own dyad's design, so pseudo-pairs \
      are synchronous too; the effect is real-pair synchrony above that",
-    "block coherence smooths over about one period, so a little of the joint coupling can \
-     reach the estimate of the parallel block that follows it 15 s later",
+    "block coherence smooths over about one period and reads context on both sides of a block, \
+     so a little of the joint coupling can reach the estimates of the neighbouring parallel and \
+     rest blocks, 40 s away",
 ];
 
 fn truth(study: &Scenario) -> Truth {
@@ -334,7 +335,7 @@ fn truth(study: &Scenario) -> Truth {
                     condition: c.name,
                     roi: r.name,
                     chromophore,
-                    effect: c.coupled && r.coupled,
+                    effect: c.coupled && r.coupled && study.coupling_amplitude > 0.0,
                 })
             })
         })
@@ -358,7 +359,7 @@ fn truth(study: &Scenario) -> Truth {
             band: "task",
         },
         null_cells: "every other condition × roi × chromophore",
-        amplitude: COUPLING_AMPLITUDE,
+        amplitude: study.coupling_amplitude,
         hbr_coupling_ratio: HBR_COUPLING_RATIO,
         coupling_periods_s: [
             signals::COUPLING_MIN_PERIOD_S,
@@ -557,7 +558,7 @@ mod tests {
             headers.push(format!("{ch}.hbr"));
         }
         assert_eq!(raw.headers, headers);
-        assert_eq!(raw.height(), 2360, "590 s at 4 Hz");
+        assert_eq!(raw.height(), 3200, "800 s at 4 Hz");
         let number = |col: &str, row: usize| -> Option<f64> {
             raw.column(col)
                 .unwrap()
@@ -683,7 +684,10 @@ mod tests {
             assert_eq!(channels.len(), 3 * cpr);
             let raw = read_table(&out.join("recordings").join("t01_g101.csv")).unwrap();
             assert_eq!(raw.headers.len(), 1 + 2 * 3 * cpr);
-            assert_eq!(raw.height(), (590.0 * hz) as usize);
+            assert_eq!(
+                raw.height(),
+                (super::super::scenario::RECORDING_S * hz) as usize
+            );
             let step: f64 = raw
                 .column("time")
                 .unwrap()
