@@ -221,9 +221,9 @@ mod tests {
         ];
         for (i, (opts, needle)) in cases.iter().enumerate() {
             let out = dir.path().join(format!("case{i}"));
-            let err = write_demo(opts, &out)
-                .err()
-                .expect("options must be refused");
+            let Err(err) = write_demo(opts, &out) else {
+                panic!("options must be refused: {opts:?}");
+            };
             assert!(err.to_string().contains(needle), "{err}");
             assert!(!out.exists(), "nothing is written for refused options");
         }
@@ -233,9 +233,9 @@ mod tests {
     fn a_non_empty_folder_is_refused() {
         let dir = tempfile::tempdir().unwrap();
         std::fs::write(dir.path().join("notes.txt"), "keep me").unwrap();
-        let err = write_demo(&DemoOptions::default(), dir.path())
-            .err()
-            .expect("a non-empty folder must be refused");
+        let Err(err) = write_demo(&DemoOptions::default(), dir.path()) else {
+            panic!("a non-empty folder must be refused");
+        };
         assert!(err.to_string().contains("is not empty"), "{err}");
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1);
     }
