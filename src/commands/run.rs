@@ -140,6 +140,9 @@ pub fn run(args: &RunArgs) -> anyhow::Result<ExitCode> {
         }
     };
     let out = staging.commit()?;
+    for w in &outcome.manifest.warnings {
+        eprintln!("warning: {w}");
+    }
     print_summary(&outcome, &out);
     Ok(ExitCode::SUCCESS)
 }
