@@ -1,11 +1,12 @@
 //! Calibration at scale: rejection rates of the re-pairing test on synthetic studies run
 //! through the whole pipeline, and power under the demo's coupling.
 //!
-//! `cargo run --release --example calibrate [-- --sims 400 --dyads 12 --coupling 0 --sites 2]`
+//! `cargo run --release --example calibrate [-- --sims 400 --dyads 12 --coupling 0 --sites 2 --keep-real 1]`
 //!
 //! Prints, for the cell (joint, hbo, task, prefrontal) fixed in advance, the fraction of studies
 //! with p < 0.05 (uncorrected) and with a significant maxstat-corrected result, with a binomial
-//! standard error. `--sites 1` drops the site rule, so members are re-paired in one pool.
+//! standard error. `--sites 1` drops the site rule, so members are re-paired in one pool;
+//! `--keep-real 1` sets `null_includes_real = true`.
 
 use rayon::prelude::*;
 
@@ -25,7 +26,13 @@ fn arg<T: std::str::FromStr>(name: &str, default: T) -> T {
 }
 
 /// (p, significant after correction) of the fixed cell in one synthetic study.
-fn one(seed: u64, dyads: usize, coupling: f64, sites: usize) -> anyhow::Result<(f64, bool)> {
+fn one(
+    seed: u64,
+    dyads: usize,
+    coupling: f64,
+    sites: usize,
+    keep_real: bool,
+) -> anyhow::Result<(f64, bool)> {
     let dir = tempfile::tempdir()?;
     let folder = dir.path().join("s");
     write_demo(
@@ -44,6 +51,9 @@ fn one(seed: u64, dyads: usize, coupling: f64, sites: usize) -> anyhow::Result<(
         .replace("bootstrap = 2000", "bootstrap = 0");
     if sites == 1 {
         text = text.replace("pair_within = [\"site\"]", "pair_within = []");
+    }
+    if keep_real {
+        text = text.replace("bootstrap = 0", "bootstrap = 0\nnull_includes_real = true");
     }
     std::fs::write(&toml, text)?;
     let st = study::load(&toml)?;
@@ -74,15 +84,18 @@ fn main() -> anyhow::Result<()> {
     let dyads: usize = arg("--dyads", 12);
     let coupling: f64 = arg("--coupling", 0.0);
     let sites: usize = arg("--sites", 2);
+    let keep_real = arg("--keep-real", 0usize) == 1;
     let results: Vec<(f64, bool)> = (0..sims)
         .into_par_iter()
-        .map(|s| one(100_000 + s, dyads, coupling, sites))
+        .map(|s| one(100_000 + s, dyads, coupling, sites, keep_real))
         .collect::<anyhow::Result<_>>()?;
     let n = results.len() as f64;
     let raw = results.iter().filter(|r| r.0 < 0.05).count() as f64 / n;
     let adj = results.iter().filter(|r| r.1).count() as f64 / n;
     let se = |p: f64| (p * (1.0 - p) / n).sqrt();
-    println!("calibration: {sims} studies, {dyads} dyads, {sites} site(s), coupling {coupling}");
+    println!(
+        "calibration: {sims} studies, {dyads} dyads, {sites} site(s), coupling {coupling}, real pairs in the null: {keep_real}"
+    );
     println!("  p < 0.05 (uncorrected)       {raw:.3} ± {:.3}", se(raw));
     println!("  significant after maxstat    {adj:.3} ± {:.3}", se(adj));
     Ok(())

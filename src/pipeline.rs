@@ -91,6 +91,31 @@ pub fn layout(study: &Study, plan: &PairPlan) -> inference::Layout {
     }
 }
 
+/// The plan re-pairings are drawn from: the pair plan itself, or with `keep_real` the plan whose
+/// re-pairings may also keep real pairs.
+pub fn null_plan(plan: &PairPlan, keep_real: bool) -> PairPlan {
+    if keep_real {
+        plan.with_real_pairs_in_repairings()
+    } else {
+        plan.clone()
+    }
+}
+
+/// The inference layout for a null whose re-pairings may (`keep_real`) contain real pairs: they
+/// are then allowed in draws, and still never count as pseudo-pairs.
+pub fn null_layout(study: &Study, plan: &PairPlan, keep_real: bool) -> inference::Layout {
+    let mut layout = layout(study, plan);
+    if keep_real {
+        for &(r, c) in &layout.real {
+            layout.admissible[r as usize * layout.n_cols + c as usize] = true;
+            if layout.peers {
+                layout.admissible[c as usize * layout.n_cols + r as usize] = true;
+            }
+        }
+    }
+    layout
+}
+
 /// The synchrony matrices as inference cells, in (condition, chromophore, band, roi) order.
 pub fn cells(syn: &Synchrony) -> Vec<CellMatrix> {
     syn.matrices()
@@ -154,6 +179,28 @@ pub fn stream_seeds(master: u64) -> (u64, u64) {
     (master, master ^ 0x9e37_79b9_7f4a_7c15)
 }
 
+/// Removes the observed pairing from an enumerated reference set. The inference counts the
+/// observed statistic once itself, p = (1 + #{T* ≥ T}) / (K + 1), so leaving it among the K
+/// would count it twice.
+fn drop_observed_pairing(reps: &mut Repairings, plan: &PairPlan) {
+    let d = reps.n_dyads;
+    let mut real: Vec<(u32, u32)> = plan
+        .real
+        .iter()
+        .map(|&(r, c)| (r as u32, c as u32))
+        .collect();
+    real.sort_unstable();
+    let mut kept = Vec::with_capacity(reps.pairs.len());
+    for draw in reps.pairs.chunks(d) {
+        let mut sorted = draw.to_vec();
+        sorted.sort_unstable();
+        if sorted != real {
+            kept.extend_from_slice(draw);
+        }
+    }
+    reps.pairs = kept;
+}
+
 #[derive(Clone, Copy, Debug)]
 pub struct AnalysisOptions {
     pub seed: u64,
@@ -195,8 +242,13 @@ pub fn analyse(
     lap("plan", &mut timings);
     let (repair_seed, inference_seed) = stream_seeds(opts.seed);
     let permutations = study.config.inference.permutations;
-    let (_, sampler_reason) = pairing::choose_method(&plan, permutations);
-    let repairings = pairing::draw_repairings(&plan, permutations, repair_seed)?;
+    let keep_real = study.config.inference.null_includes_real;
+    let null_plan = null_plan(&plan, keep_real);
+    let (_, sampler_reason) = pairing::choose_method(&null_plan, permutations);
+    let mut repairings = pairing::draw_repairings(&null_plan, permutations, repair_seed)?;
+    if keep_real && repairings.exact {
+        drop_observed_pairing(&mut repairings, &plan);
+    }
     lap("re-pairings", &mut timings);
     let pairs = engine_pairs(&plan);
     let synchrony = engine::compute(
@@ -212,7 +264,7 @@ pub fn analyse(
     )?;
     lap("synchrony", &mut timings);
     let cells = cells(&synchrony);
-    let layout = layout(&study, &plan);
+    let layout = null_layout(&study, &plan, keep_real);
     let draws = inference::Draws {
         pairs: &repairings.pairs,
         n_dyads: repairings.n_dyads,

@@ -202,5 +202,16 @@ fn the_demo_analysis_recovers_the_ground_truth() {
             );
         }
     }
+    // 10000 of the 28224 re-pairings were drawn: the methods paragraph must say sampled, not
+    // exact (the count of re-pairings is exact, the null distribution is not).
+    let page = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(
+        page.contains("estimated from K = 10000 re-pairings drawn uniformly"),
+        "methods paragraph"
+    );
+    assert!(
+        !page.contains("obtained exactly"),
+        "methods paragraph claims an exact null"
+    );
     crate::browser::demo_report_page(&out.join("report.html"));
 }

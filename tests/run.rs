@@ -210,3 +210,32 @@ fn an_interrupted_run_leaves_no_output_folder() {
         );
     }
 }
+
+#[test]
+fn a_null_that_may_keep_real_pairs_enumerates_its_reference_set_once() {
+    let s = quick_study();
+    s.edit("study.toml", |t| {
+        t.replace(
+            "bootstrap = 300",
+            "bootstrap = 300\nnull_includes_real = true",
+        )
+    });
+    let out = s.dir.path().join("out");
+    let o = run(&s, &out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
+    // Hand count: each site has 4 dyads; its first two are one family (a grandparent in both,
+    // or twins), so the two cells between them are excluded and the diagonal (real pairs) is
+    // allowed: 4! − 2·3! + 2! = 14 re-pairings per site (inclusion–exclusion), 14² = 196 in
+    // all, fewer than the 2000 requested, so all are enumerated; the observed pairing is one
+    // of them and is counted once by the p-value itself, so 195 are drawn.
+    assert_eq!(m["counts"]["repairings_drawn"], 195, "{}", m["sampler"]);
+    assert_eq!(m["sampler"]["exact"], true);
+    assert_eq!(m["config"]["inference"]["null_includes_real"], true);
+    let report = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(
+        report.contains("contained the observed pairing"),
+        "methods paragraph names the reference set"
+    );
+}

@@ -328,6 +328,23 @@ impl PairPlan {
         self.adm.get(r, c)
     }
 
+    /// The plan re-pairings are drawn from when they may keep real pairs: every admissible
+    /// pseudo-pair and every real pair. Its re-pairings include the observed pairing itself,
+    /// which is what makes the re-pairing null exact when the observed pairing is one uniform
+    /// draw from that set. Counts and draws of the returned plan refer to this larger set;
+    /// statuses are unchanged.
+    pub fn with_real_pairs_in_repairings(&self) -> PairPlan {
+        let mut plan = self.clone();
+        for &(r, c) in &self.real {
+            plan.adm.set(r, c);
+            if self.peers {
+                plan.adm.set(c, r);
+            }
+        }
+        plan.count_cache = std::sync::OnceLock::new();
+        plan
+    }
+
     /// Roles: every row × column, row-major. Peers: every `r < c`.
     pub fn candidates(&self) -> impl Iterator<Item = (usize, usize, &Status)> {
         let nc = self.n_cols();

@@ -129,4 +129,6 @@ pub struct MethodsInput {
     pub alternative: String,
     pub bootstrap: usize,
     pub seed: u64,
+    /// A sentence on the reference set when re-pairings may keep real pairs.
+    pub reference_note: Option<String>,
 }

@@ -241,6 +241,9 @@ fn null_sentences(m: &MethodsInput) -> Vec<String> {
             m.permutations, m.sampler
         ));
     }
+    if let Some(note) = &m.reference_note {
+        s.push(note.clone());
+    }
     let direction = match m.alternative.as_str() {
         "greater" => "one-sided (greater: real pairs more synchronous than pseudo-pairs), \
                       counting re-pairings with T* ≥ T"
@@ -364,6 +367,7 @@ mod tests {
             ],
             repairings_count: "123456789012345678901234567890".into(),
             repairings_exact: false,
+            reference_note: None,
             permutations: 4999,
             sampler: "rejection sampling of uniform re-pairings within strata".into(),
             correction: "holm".into(),

@@ -63,10 +63,21 @@ pub fn methods_input(a: &Analysis, audit: &PlanAudit) -> MethodsInput {
             .iter()
             .map(|(k, v)| (k.clone(), *v))
             .collect(),
-        repairings_count: audit.repairings_text(),
-        repairings_exact: audit.repairings.exact,
+        // With real pairs allowed and the set enumerated, the set is the draws plus the
+        // observed pairing, which the p-value counts itself.
+        repairings_count: if cfg.inference.null_includes_real && a.repairings.exact {
+            (a.repairings.len() + 1).to_string()
+        } else {
+            audit.repairings_text()
+        },
+        repairings_exact: a.repairings.exact,
         permutations: a.repairings.len(),
         sampler: a.repairings.method.to_string(),
+        reference_note: cfg.inference.null_includes_real.then(|| {
+            "Re-pairings could keep real pairs, so the reference set contained the observed \
+             pairing itself; real pairs never entered the pseudo-pair means."
+                .to_string()
+        }),
         correction: format!("{:?}", cfg.inference.correction).to_lowercase(),
         family: cfg
             .inference

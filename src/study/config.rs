@@ -20,6 +20,7 @@ enum Kind {
     Text,
     Number,
     Integer,
+    Boolean,
     TextList,
 }
 
@@ -29,6 +30,7 @@ impl Kind {
             Kind::Text => "a string",
             Kind::Number => "a number",
             Kind::Integer => "an integer",
+            Kind::Boolean => "true or false",
             Kind::TextList => "an array of strings",
         }
     }
@@ -98,6 +100,7 @@ const SECTIONS: &[Section] = &[
             ("family", Kind::TextList),
             ("bootstrap", Kind::Integer),
             ("alternative", Kind::Text),
+            ("null_includes_real", Kind::Boolean),
         ],
     ),
     (
@@ -204,6 +207,9 @@ pub struct Inference {
     pub family: Vec<Axis>,
     pub bootstrap: usize,
     pub alternative: AlternativeName,
+    /// Whether re-pairings may keep real pairs, so that the null's reference set contains the
+    /// observed pairing (exact under random pairing); by default every pair is a pseudo-pair.
+    pub null_includes_real: bool,
 }
 
 impl Inference {
@@ -412,6 +418,17 @@ impl Reader<'_> {
             Value::Integer(i) => Some(*i),
             other => {
                 self.wrong_type(&format!("{section}.{key}"), Kind::Integer, other);
+                None
+            }
+        }
+    }
+
+    fn boolean(&mut self, t: Option<&toml::Table>, section: &str, key: &str) -> Option<bool> {
+        let v = t?.get(key)?;
+        match v {
+            Value::Boolean(b) => Some(*b),
+            other => {
+                self.wrong_type(&format!("{section}.{key}"), Kind::Boolean, other);
                 None
             }
         }
@@ -724,6 +741,9 @@ impl Reader<'_> {
                 ],
                 AlternativeName::Greater,
             ),
+            null_includes_real: self
+                .boolean(i, "inference", "null_includes_real")
+                .unwrap_or(false),
         };
 
         let contrasts = self.contrasts(root);
@@ -891,6 +911,19 @@ roles = ["caregiver", "child"]
             err.contains("key `inference.permutations` must be an integer, found string"),
             "{err}"
         );
+    }
+
+    #[test]
+    fn a_boolean_key_takes_only_booleans() {
+        let on = parse(&format!("{BASE}\n[inference]\nnull_includes_real = true\n")).unwrap();
+        assert!(on.inference.null_includes_real);
+        assert!(!parse(BASE).unwrap().inference.null_includes_real);
+        let err = parse(&format!(
+            "{BASE}\n[inference]\nnull_includes_real = \"yes\"\n"
+        ))
+        .unwrap_err()
+        .to_string();
+        assert!(err.contains("must be true or false"), "{err}");
     }
 
     #[test]
