@@ -9,7 +9,7 @@
 use std::time::Instant;
 
 use nevermet::demo::{DemoMode, DemoOptions, write_demo};
-use nevermet::engine::{self, EngineOptions, Silent};
+use nevermet::engine::Silent;
 use nevermet::inference;
 use nevermet::pairing;
 use nevermet::pipeline;
@@ -94,17 +94,7 @@ fn main() -> anyhow::Result<()> {
 
     let pairs = pipeline::engine_pairs(&plan);
     let t = Instant::now();
-    let syn = engine::compute(
-        &st,
-        &pairs,
-        plan.n_rows(),
-        plan.n_cols(),
-        plan.peers,
-        EngineOptions {
-            memory_bytes: 4 << 30,
-        },
-        &Silent,
-    )?;
+    let syn = pipeline::synchrony(&st, &plan, 4 << 30, &Silent)?;
     let secs = t.elapsed().as_secs_f64();
     let blocks = syn.blocks.len() * syn.chromophores.len() * syn.bands.len() * st.channels.len();
     let pair_blocks = blocks * pairs.len();

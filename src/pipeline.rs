@@ -67,6 +67,24 @@ pub fn engine_pairs(plan: &PairPlan) -> Vec<PairRef> {
         .collect()
 }
 
+/// Every real and admissible pair's synchrony values for a study and its pair plan.
+pub fn synchrony(
+    study: &Study,
+    plan: &PairPlan,
+    memory_bytes: u64,
+    progress: &dyn Progress,
+) -> Result<Synchrony, engine::EngineError> {
+    engine::compute(
+        study,
+        &engine_pairs(plan),
+        plan.n_rows(),
+        plan.n_cols(),
+        plan.peers,
+        EngineOptions { memory_bytes },
+        progress,
+    )
+}
+
 /// The inference stage's view of the pair plan.
 pub fn layout(study: &Study, plan: &PairPlan) -> inference::Layout {
     let (n_rows, n_cols) = (plan.n_rows(), plan.n_cols());
@@ -250,18 +268,7 @@ pub fn analyse(
         drop_observed_pairing(&mut repairings, &plan);
     }
     lap("re-pairings", &mut timings);
-    let pairs = engine_pairs(&plan);
-    let synchrony = engine::compute(
-        &study,
-        &pairs,
-        plan.n_rows(),
-        plan.n_cols(),
-        plan.peers,
-        EngineOptions {
-            memory_bytes: opts.memory_bytes,
-        },
-        progress,
-    )?;
+    let synchrony = synchrony(&study, &plan, opts.memory_bytes, progress)?;
     lap("synchrony", &mut timings);
     let cells = cells(&synchrony);
     let layout = null_layout(&study, &plan, keep_real);

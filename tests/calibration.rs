@@ -7,7 +7,7 @@
 use rayon::prelude::*;
 
 use nevermet::demo::{DemoOptions, write_demo};
-use nevermet::engine::{self, EngineOptions, Silent};
+use nevermet::engine::Silent;
 use nevermet::inference::{self, TestKind};
 use nevermet::pairing;
 use nevermet::pipeline;
@@ -37,19 +37,7 @@ fn joint_prefrontal_p(seed: u64, coupling: f64, one_pool: bool) -> (f64, f64) {
     std::fs::write(&toml, text).unwrap();
     let st = study::load(&toml).unwrap();
     let plan = pipeline::build_plan(&st).unwrap();
-    let pairs = pipeline::engine_pairs(&plan);
-    let syn = engine::compute(
-        &st,
-        &pairs,
-        plan.n_rows(),
-        plan.n_cols(),
-        plan.peers,
-        EngineOptions {
-            memory_bytes: 1 << 30,
-        },
-        &Silent,
-    )
-    .unwrap();
+    let syn = pipeline::synchrony(&st, &plan, 1 << 30, &Silent).unwrap();
     let cells = pipeline::cells(&syn);
     let cfg = pipeline::inference_config(&st, seed);
     let p_of = |keep_real: bool| {

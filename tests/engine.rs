@@ -2,7 +2,7 @@
 //! tiling under a memory budget never changes a value, and every measure and channel pairing
 //! runs end to end.
 
-use nevermet::engine::{self, EngineOptions, Recorded, Silent};
+use nevermet::engine::{self, Recorded, Silent};
 use nevermet::pipeline;
 use nevermet::study;
 use nevermet::table::read_table;
@@ -12,17 +12,7 @@ use crate::util::{TempStudy, nevermet, stderr};
 fn compute(s: &TempStudy, memory_bytes: u64) -> (nevermet::study::Study, engine::Synchrony) {
     let st = study::load(&s.toml()).unwrap();
     let plan = pipeline::build_plan(&st).unwrap();
-    let pairs = pipeline::engine_pairs(&plan);
-    let syn = engine::compute(
-        &st,
-        &pairs,
-        plan.n_rows(),
-        plan.n_cols(),
-        plan.peers,
-        EngineOptions { memory_bytes },
-        &Silent,
-    )
-    .unwrap();
+    let syn = pipeline::synchrony(&st, &plan, memory_bytes, &Silent).unwrap();
     (st, syn)
 }
 
@@ -62,16 +52,7 @@ fn tiling_under_a_small_memory_budget_gives_identical_values() {
     // A budget below two members' transforms is refused with the figure to raise it to.
     let st = study::load(&s.toml()).unwrap();
     let plan = pipeline::build_plan(&st).unwrap();
-    let err = engine::compute(
-        &st,
-        &pipeline::engine_pairs(&plan),
-        plan.n_rows(),
-        plan.n_cols(),
-        plan.peers,
-        EngineOptions { memory_bytes: 1000 },
-        &Silent,
-    )
-    .unwrap_err();
+    let err = pipeline::synchrony(&st, &plan, 1000, &Silent).unwrap_err();
     assert!(err.to_string().contains("raise --memory-gib"), "{err}");
 }
 
@@ -80,20 +61,8 @@ fn progress_counts_every_transform_and_pair_block() {
     let s = TempStudy::new();
     let st = study::load(&s.toml()).unwrap();
     let plan = pipeline::build_plan(&st).unwrap();
-    let pairs = pipeline::engine_pairs(&plan);
     let rec = Recorded::default();
-    engine::compute(
-        &st,
-        &pairs,
-        plan.n_rows(),
-        plan.n_cols(),
-        plan.peers,
-        EngineOptions {
-            memory_bytes: 8 << 30,
-        },
-        &rec,
-    )
-    .unwrap();
+    pipeline::synchrony(&st, &plan, 8 << 30, &rec).unwrap();
     let counters = rec.counters.lock().unwrap();
     assert_eq!(counters.len(), 2);
     for (name, total, done) in counters.iter() {

@@ -34,18 +34,8 @@ fn missing_required_column_is_named() {
 fn duplicate_participant_in_a_dyad() {
     let s = TempStudy::new();
     // Row 2 is the first dyad's second member; give it the first member's participant.
-    let first: Vec<String> = s
-        .line("members.tsv", 1)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    let mut second: Vec<String> = s
-        .line("members.tsv", 2)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    second[2] = first[2].clone();
-    s.set_line("members.tsv", 2, &second.join("\t"));
+    let first_participant = s.cell("members.tsv", 1, 2);
+    s.set_cell("members.tsv", 2, 2, &first_participant);
     assert_fails_with(
         &s.check(),
         &[
@@ -60,13 +50,7 @@ fn duplicate_participant_in_a_dyad() {
 #[test]
 fn duplicate_role_in_a_dyad() {
     let s = TempStudy::new();
-    let mut second: Vec<String> = s
-        .line("members.tsv", 2)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    second[1] = "grandparent".into();
-    s.set_line("members.tsv", 2, &second.join("\t"));
+    s.set_cell("members.tsv", 2, 1, "grandparent");
     assert_fails_with(
         &s.check(),
         &[
@@ -119,11 +103,8 @@ fn irregular_sampling() {
     let s = TempStudy::new();
     let rec = s.first_recording();
     // Shift one time stamp by 5 % of the 0.5 s interval.
-    let line = s.line(&rec, 11);
-    let mut cells: Vec<String> = line.split(',').map(String::from).collect();
-    let t: f64 = cells[0].parse().unwrap();
-    cells[0] = format!("{:.4}", t + 0.025);
-    s.set_line(&rec, 11, &cells.join(","));
+    let t: f64 = s.cell(&rec, 11, 0).parse().unwrap();
+    s.set_cell(&rec, 11, 0, &format!("{:.4}", t + 0.025));
     assert_fails_with(&s.check(), &[&rec, "column time", "irregular sampling"]);
 }
 
@@ -153,10 +134,7 @@ fn sampling_rates_differ() {
 fn text_in_a_numeric_column() {
     let s = TempStudy::new();
     let rec = s.first_recording();
-    let line = s.line(&rec, 7);
-    let mut cells: Vec<String> = line.split(',').map(String::from).collect();
-    cells[1] = "n/a".into();
-    s.set_line(&rec, 7, &cells.join(","));
+    s.set_cell(&rec, 7, 1, "n/a");
     assert_fails_with(
         &s.check(),
         &[&rec, "row 7", "column pf1.hbo", "text \"n/a\""],
@@ -166,13 +144,7 @@ fn text_in_a_numeric_column() {
 #[test]
 fn text_in_an_events_number() {
     let s = TempStudy::new();
-    let mut cells: Vec<String> = s
-        .line("events.tsv", 3)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    cells[1] = "soon".into();
-    s.set_line("events.tsv", 3, &cells.join("\t"));
+    s.set_cell("events.tsv", 3, 1, "soon");
     assert_fails_with(
         &s.check(),
         &[
@@ -190,10 +162,7 @@ fn nan_inside_an_analysis_window() {
     let rec = s.first_recording();
     // The first block starts after at least 90 s of lead-in; 2 Hz → row 200 is at 99.5 s,
     // inside the first block's window (block plus context).
-    let line = s.line(&rec, 200);
-    let mut cells: Vec<String> = line.split(',').map(String::from).collect();
-    cells[3] = "NaN".into();
-    s.set_line(&rec, 200, &cells.join(","));
+    s.set_cell(&rec, 200, 3, "NaN");
     assert_fails_with(
         &s.check(),
         &[
@@ -217,13 +186,7 @@ fn channel_missing_from_a_recording() {
 #[test]
 fn events_naming_an_unknown_dyad() {
     let s = TempStudy::new();
-    let mut cells: Vec<String> = s
-        .line("events.tsv", 2)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    cells[0] = "zz99".into();
-    s.set_line("events.tsv", 2, &cells.join("\t"));
+    s.set_cell("events.tsv", 2, 0, "zz99");
     assert_fails_with(
         &s.check(),
         &[
@@ -238,13 +201,7 @@ fn events_naming_an_unknown_dyad() {
 #[test]
 fn block_running_past_the_end() {
     let s = TempStudy::new();
-    let mut cells: Vec<String> = s
-        .line("events.tsv", 1)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    cells[1] = "5000".into();
-    s.set_line("events.tsv", 1, &cells.join("\t"));
+    s.set_cell("events.tsv", 1, 1, "5000");
     assert_fails_with(
         &s.check(),
         &["events.tsv", "row 1", "runs past the recording"],
@@ -255,13 +212,7 @@ fn block_running_past_the_end() {
 fn zero_or_negative_duration() {
     for bad in ["0", "-3"] {
         let s = TempStudy::new();
-        let mut cells: Vec<String> = s
-            .line("events.tsv", 2)
-            .split('\t')
-            .map(String::from)
-            .collect();
-        cells[2] = bad.into();
-        s.set_line("events.tsv", 2, &cells.join("\t"));
+        s.set_cell("events.tsv", 2, 2, bad);
         assert_fails_with(
             &s.check(),
             &["events.tsv", "row 2", "column duration", "must be positive"],
@@ -363,13 +314,7 @@ fn every_problem_is_reported_not_only_the_first() {
     let s = TempStudy::new();
     let rec = s.first_recording();
     s.edit(&rec, |t| t.replacen("tp2.hbr", "tp9.hbr", 1));
-    let mut cells: Vec<String> = s
-        .line("events.tsv", 2)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    cells[0] = "zz99".into();
-    s.set_line("events.tsv", 2, &cells.join("\t"));
+    s.set_cell("events.tsv", 2, 0, "zz99");
     assert_fails_with(&s.check(), &["tp2.hbr", "zz99", "2 problem(s)"]);
 }
 
@@ -377,23 +322,16 @@ fn every_problem_is_reported_not_only_the_first() {
 fn a_member_left_without_admissible_partners_is_named() {
     let s = TempStudy::new();
     // Put every member in one family: keep_apart then forbids every pseudo-pair.
-    s.edit("members.tsv", |t| {
-        let mut out = Vec::new();
-        for (i, line) in t.lines().enumerate() {
-            let mut cells: Vec<String> = line.split('\t').map(String::from).collect();
-            if i > 0 {
-                cells[4] = "f-all".into();
-            }
-            out.push(cells.join("\t"));
-        }
-        out.join("\n") + "\n"
-    });
+    let rows = s.read("members.tsv").lines().count();
+    for line in 1..rows {
+        s.set_cell("members.tsv", line, 4, "f-all");
+    }
     let o = s.check();
     assert_fails_with(&o, &["keep_apart:family"]);
-    let first_member = {
-        let line = s.line("members.tsv", 1);
-        let c: Vec<&str> = line.split('\t').collect();
-        format!("{}:{}", c[0], c[2])
-    };
+    let first_member = format!(
+        "{}:{}",
+        s.cell("members.tsv", 1, 0),
+        s.cell("members.tsv", 1, 2)
+    );
     assert!(stderr(&o).contains(&first_member), "{}", stderr(&o));
 }

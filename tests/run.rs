@@ -147,13 +147,7 @@ fn a_failed_run_with_force_keeps_the_old_results() {
     std::fs::create_dir(&out).unwrap();
     std::fs::write(out.join("keep.txt"), "precious").unwrap();
     // Break the study so the run fails after the output folder was accepted.
-    let mut cells: Vec<String> = s
-        .line("events.tsv", 2)
-        .split('\t')
-        .map(String::from)
-        .collect();
-    cells[0] = "zz99".into();
-    s.set_line("events.tsv", 2, &cells.join("\t"));
+    s.set_cell("events.tsv", 2, 0, "zz99");
     let o = run(&s, &out, &["--force"]);
     assert_eq!(o.status.code(), Some(2));
     assert!(

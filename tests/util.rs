@@ -83,6 +83,24 @@ impl TempStudy {
         });
     }
 
+    /// Replaces one cell (0-based line, header = 0; 0-based column) of a TSV or CSV file.
+    pub fn set_cell(&self, rel: &str, line: usize, col: usize, value: &str) {
+        let sep = if rel.ends_with(".csv") { ',' } else { '\t' };
+        let mut cells: Vec<String> = self.line(rel, line).split(sep).map(String::from).collect();
+        cells[col] = value.to_string();
+        self.set_line(rel, line, &cells.join(&sep.to_string()));
+    }
+
+    /// One cell (0-based line and column) of a TSV or CSV file.
+    pub fn cell(&self, rel: &str, line: usize, col: usize) -> String {
+        let sep = if rel.ends_with(".csv") { ',' } else { '\t' };
+        self.line(rel, line)
+            .split(sep)
+            .nth(col)
+            .expect("column")
+            .to_string()
+    }
+
     pub fn line(&self, rel: &str, line: usize) -> String {
         self.read(rel).lines().nth(line).expect("line").to_string()
     }
