@@ -70,3 +70,16 @@ fn parquet_recordings_give_the_same_signals() {
         assert_eq!(a.n, b.n);
     }
 }
+
+#[test]
+fn the_example_configs_parse() {
+    for name in ["roles.toml", "peers.toml"] {
+        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("configs")
+            .join(name);
+        let text = std::fs::read_to_string(&path).unwrap();
+        let config = nevermet::study::config::parse_config(&text, &path, "example")
+            .unwrap_or_else(|p| panic!("{name}:\n{p}"));
+        assert!(!config.bands.is_empty(), "{name}");
+    }
+}

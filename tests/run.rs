@@ -233,3 +233,20 @@ fn a_null_that_may_keep_real_pairs_enumerates_its_reference_set_once() {
         "methods paragraph names the reference set"
     );
 }
+
+#[test]
+fn peers_mode_runs_end_to_end() {
+    let s = TempStudy::with_args(&["--dyads", "8", "--sampling-hz", "2", "--mode", "peers"]);
+    s.edit("study.toml", |t| {
+        t.replace("permutations = 10000", "permutations = 500")
+            .replace("bootstrap = 2000", "bootstrap = 100")
+    });
+    let out = s.dir.path().join("out");
+    let o = run(&s, &out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let pairs = std::fs::read_to_string(out.join("pairs.tsv")).unwrap();
+    // One adult is recorded in two dyads: that candidate is the same participant twice.
+    assert!(pairs.contains("excluded\tsame-participant"), "{pairs}");
+    let results = std::fs::read_to_string(out.join("results.tsv")).unwrap();
+    assert_eq!(results.lines().count(), 1 + 2 * 18, "{results}");
+}
