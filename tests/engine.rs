@@ -7,7 +7,7 @@ use nevermet::pipeline;
 use nevermet::study;
 use nevermet::table::read_table;
 
-use crate::util::{TempStudy, nevermet, stderr};
+use crate::util::{TempStudy, stderr};
 
 fn compute(s: &TempStudy, memory_bytes: u64) -> (nevermet::study::Study, engine::Synchrony) {
     let st = study::load(&s.toml()).unwrap();
@@ -119,13 +119,7 @@ fn a_pseudo_pair_with_a_real_pairs_signals_has_the_real_pairs_values() {
         out.join("\n") + "\n"
     });
     let out = s.dir.path().join("out");
-    let o = nevermet(&[
-        "run",
-        s.toml().to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ]);
+    let o = s.run_into(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     let syn = read_table(&out.join("synchrony.parquet")).unwrap();
     let text = |c: &str, r: usize| syn.column(c).unwrap().text(r).unwrap_or_default();
@@ -172,13 +166,7 @@ fn correlation_and_all_channel_pairs_run_end_to_end() {
                 .replace("permutations = 10000", "permutations = 500")
         });
         let out = s.dir.path().join("out");
-        let o = nevermet(&[
-            "run",
-            s.toml().to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--quiet",
-        ]);
+        let o = s.run_into(&out, &[]);
         assert!(o.status.success(), "{}", stderr(&o));
         let results = std::fs::read_to_string(out.join("results.tsv")).unwrap();
         assert!(results.contains(roi), "{edit:?}: {results}");

@@ -27,19 +27,6 @@ fn quick_study() -> TempStudy {
     s
 }
 
-fn run(study: &TempStudy, out: &Path, extra: &[&str]) -> std::process::Output {
-    let toml = study.toml();
-    let mut args = vec![
-        "run",
-        toml.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ];
-    args.extend_from_slice(extra);
-    nevermet(&args)
-}
-
 fn leftovers(dir: &Path) -> Vec<PathBuf> {
     std::fs::read_dir(dir)
         .unwrap()
@@ -58,12 +45,12 @@ fn two_runs_on_one_and_two_threads_are_identical_and_replay_confirms() {
     let s = quick_study();
     let a = s.dir.path().join("out1");
     let b = s.dir.path().join("out2");
-    let o = run(&s, &a, &["--threads", "1"]);
+    let o = s.run_into(&a, &["--threads", "1"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let summary = stdout(&o);
     assert!(summary.contains("re-pairings"), "{summary}");
     assert!(summary.contains("report.html"), "{summary}");
-    let o = run(&s, &b, &["--threads", "2"]);
+    let o = s.run_into(&b, &["--threads", "2"]);
     assert!(o.status.success(), "{}", stderr(&o));
     for f in OUTPUTS {
         assert!(a.join(f).is_file(), "missing {f}");
@@ -90,7 +77,7 @@ fn two_runs_on_one_and_two_threads_are_identical_and_replay_confirms() {
 fn replay_names_a_changed_input_and_a_differing_output() {
     let s = quick_study();
     let out = s.dir.path().join("out");
-    let o = run(&s, &out, &[]);
+    let o = s.run_into(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     let manifest = out.join("manifest.json");
     // A tampered output hash must be reported as DIFFERS with exit code 1.
@@ -122,7 +109,7 @@ fn a_non_empty_output_folder_is_refused_without_force() {
     let out = s.dir.path().join("out");
     std::fs::create_dir(&out).unwrap();
     std::fs::write(out.join("keep.txt"), "precious").unwrap();
-    let o = run(&s, &out, &[]);
+    let o = s.run_into(&out, &[]);
     assert!(!o.status.success());
     assert!(
         stderr(&o).contains("exists and is not empty"),
@@ -133,7 +120,7 @@ fn a_non_empty_output_folder_is_refused_without_force() {
         std::fs::read_to_string(out.join("keep.txt")).unwrap(),
         "precious"
     );
-    let o = run(&s, &out, &["--force"]);
+    let o = s.run_into(&out, &["--force"]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(!out.join("keep.txt").exists());
     assert!(out.join("results.tsv").exists());
@@ -148,7 +135,7 @@ fn a_failed_run_with_force_keeps_the_old_results() {
     std::fs::write(out.join("keep.txt"), "precious").unwrap();
     // Break the study so the run fails after the output folder was accepted.
     s.set_cell("events.tsv", 2, 0, "zz99");
-    let o = run(&s, &out, &["--force"]);
+    let o = s.run_into(&out, &["--force"]);
     assert_eq!(o.status.code(), Some(2));
     assert!(
         stderr(&o).contains("unknown dyad \"zz99\""),
@@ -215,7 +202,7 @@ fn a_null_that_may_keep_real_pairs_enumerates_its_reference_set_once() {
         )
     });
     let out = s.dir.path().join("out");
-    let o = run(&s, &out, &[]);
+    let o = s.run_into(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     let m: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
@@ -242,7 +229,7 @@ fn peers_mode_runs_end_to_end() {
             .replace("bootstrap = 2000", "bootstrap = 100")
     });
     let out = s.dir.path().join("out");
-    let o = run(&s, &out, &[]);
+    let o = s.run_into(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     let pairs = std::fs::read_to_string(out.join("pairs.tsv")).unwrap();
     // One adult is recorded in two dyads: that candidate is the same participant twice.

@@ -114,6 +114,20 @@ impl TempStudy {
         format!("recordings/{}", row[col])
     }
 
+    /// Runs `run` on the study into `out`, quietly, with extra options.
+    pub fn run_into(&self, out: &Path, extra: &[&str]) -> Output {
+        let toml = self.toml();
+        let mut args = vec![
+            "run",
+            toml.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ];
+        args.extend_from_slice(extra);
+        nevermet(&args)
+    }
+
     /// Runs `check` on the study.
     pub fn check(&self) -> Output {
         nevermet(&["check", self.toml().to_str().unwrap()])

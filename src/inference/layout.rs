@@ -286,27 +286,9 @@ mod tests {
         }
     }
 
+    /// Roles mode, every off-diagonal pair admissible (shared with the study-level tests).
     fn roles(d: usize) -> Layout {
-        let mut admissible = vec![true; d * d];
-        for i in 0..d {
-            admissible[i * d + i] = false;
-        }
-        Layout {
-            n_rows: d,
-            n_cols: d,
-            peers: false,
-            dyads: (0..d).map(|i| format!("d{i}")).collect(),
-            real: (0..d as u32).map(|i| (i, i)).collect(),
-            admissible,
-            dyad_pseudo: (0..d as u32)
-                .map(|i| {
-                    (0..d as u32)
-                        .filter(|&j| j != i)
-                        .flat_map(|j| [(i, j), (j, i)])
-                        .collect()
-                })
-                .collect(),
-        }
+        super::super::tests::common::roles_layout(d)
     }
 
     #[test]

@@ -5,6 +5,6 @@
 
 mod behaviour;
 mod calibration;
-mod common;
+pub(super) mod common;
 mod determinism;
 mod exact;
