@@ -335,3 +335,20 @@ fn a_member_left_without_admissible_partners_is_named() {
     );
     assert!(stderr(&o).contains(&first_member), "{}", stderr(&o));
 }
+
+#[test]
+fn a_closed_stdout_is_not_a_failure() {
+    let s = TempStudy::new();
+    let mut child = std::process::Command::new(crate::util::bin())
+        .args(["check", s.toml().to_str().unwrap()])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    // Close the reading end before the study is loaded, as `| head -0` would.
+    drop(child.stdout.take());
+    let out = child.wait_with_output().unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(out.status.success(), "{err}");
+    assert!(!err.contains("panicked"), "{err}");
+}
