@@ -262,8 +262,9 @@ pub fn analyse(
     let permutations = study.config.inference.permutations;
     let keep_real = study.config.inference.null_includes_real;
     let null_plan = null_plan(&plan, keep_real);
-    let (_, sampler_reason) = pairing::choose_method(&null_plan, permutations);
-    let mut repairings = pairing::draw_repairings(&null_plan, permutations, repair_seed)?;
+    let (method, sampler_reason) = pairing::choose_method(&null_plan, permutations);
+    let mut repairings =
+        pairing::draw_repairings_with(&null_plan, &method, permutations, repair_seed)?;
     if keep_real && repairings.exact {
         drop_observed_pairing(&mut repairings, &plan);
     }

@@ -13,7 +13,7 @@ use crate::inference::TestKind;
 use crate::pipeline::{self, Analysis, AnalysisOptions};
 use crate::report::manifest::{self, Manifest};
 use crate::report::outdir::{self, Staging};
-use crate::report::{self};
+use crate::report::{self, plan::PlanAudit};
 use crate::study;
 
 const GIB: f64 = (1u64 << 30) as f64;
@@ -33,6 +33,7 @@ pub fn set_threads(threads: Option<usize>) -> anyhow::Result<usize> {
 /// What one execution produced.
 pub struct Outcome {
     pub analysis: Analysis,
+    pub audit: PlanAudit,
     pub manifest: Manifest,
 }
 
@@ -58,8 +59,9 @@ pub fn execute(
     analysis.timings.insert(0, ("load".to_string(), load_time));
     let mut warnings = analysis.study.warnings.clone();
     warnings.extend(analysis.inference.warnings.iter().cloned());
+    let audit = report::audit(&analysis);
     let t = Instant::now();
-    let outputs = report::write_outputs(&analysis, &warnings, dir)?;
+    let outputs = report::write_outputs(&analysis, &audit, &warnings, dir)?;
     analysis
         .timings
         .push(("outputs".to_string(), t.elapsed().as_secs_f64()));
@@ -69,7 +71,6 @@ pub fn execute(
     let inputs =
         manifest::hash_files(root, &analysis.study.input_files).context("hashing the inputs")?;
     let output_hashes = manifest::hash_files(dir, &outputs).context("hashing the outputs")?;
-    let audit = report::audit(&analysis);
     let mut counts = BTreeMap::new();
     counts.insert("dyads".into(), analysis.study.dyads.len().into());
     counts.insert("members".into(), analysis.study.members.len().into());
@@ -110,6 +111,7 @@ pub fn execute(
     )?;
     Ok(Outcome {
         analysis,
+        audit,
         manifest: m,
     })
 }
@@ -149,7 +151,7 @@ pub fn run(args: &RunArgs) -> anyhow::Result<ExitCode> {
 
 fn print_summary(o: &Outcome, out: &Path) {
     let a = &o.analysis;
-    let audit = report::audit(a);
+    let audit = &o.audit;
     println!(
         "nevermet {} — {}",
         env!("CARGO_PKG_VERSION"),

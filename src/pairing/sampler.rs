@@ -245,7 +245,8 @@ pub fn draw_repairings(
     draw_repairings_with(plan, &method, requested, seed)
 }
 
-/// Draws with a given method; for tests and diagnostics that must force a method.
+/// Draws with a given method: for callers that already chose it with [`choose_method`] (so
+/// the choice, and any pilot run it needs, happens once), and for tests that force a method.
 /// `Enumerated` ignores `requested` and returns every admissible re-pairing.
 pub fn draw_repairings_with(
     plan: &PairPlan,

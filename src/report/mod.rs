@@ -34,10 +34,10 @@ pub fn audit(a: &Analysis) -> PlanAudit {
 /// Writes every result file into `dir`, returning their paths (manifest and timings excluded).
 pub fn write_outputs(
     a: &Analysis,
+    audit: &PlanAudit,
     warnings: &[String],
     dir: &Path,
 ) -> anyhow::Result<Vec<PathBuf>> {
-    let audit = audit(a);
     let file = |name: &str| dir.join(name);
     let mut written = Vec::new();
     let mut done = |p: PathBuf| written.push(p);
@@ -49,11 +49,11 @@ pub fn write_outputs(
     done(file("dyads.tsv"));
     tables::pairs(&a.study, &a.plan, &file("pairs.tsv"))?;
     done(file("pairs.tsv"));
-    write_json(&audit, &file("plan.json"))?;
+    write_json(audit, &file("plan.json"))?;
     done(file("plan.json"));
     synchrony::write(&a.study, &a.synchrony, &file("synchrony.parquet"))?;
     done(file("synchrony.parquet"));
-    let page = html::render(&page::report_data(a, &audit, warnings));
+    let page = html::render(&page::report_data(a, audit, warnings));
     std::fs::write(file("report.html"), page)
         .with_context(|| format!("writing {}", file("report.html").display()))?;
     done(file("report.html"));

@@ -176,15 +176,7 @@ pub fn load_report(config_path: &Path) -> LoadReport {
             rois.push(c.roi.clone());
         }
     }
-    let conditions: Vec<String> = {
-        let mut v: Vec<String> = Vec::new();
-        for e in &events {
-            if !v.contains(&e.condition) {
-                v.push(e.condition.clone());
-            }
-        }
-        v
-    };
+    let conditions = tables::condition_names(&events);
     for c in &config.contrasts {
         for cond in &c.conditions {
             if !events.is_empty() && !conditions.contains(cond) {

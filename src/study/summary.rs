@@ -58,13 +58,10 @@ impl Summary {
             .collect();
         self.sampling_hz = dt.is_finite().then(|| 1.0 / dt);
         self.conditions = if windows.is_empty() {
-            let mut names: Vec<String> = Vec::new();
-            for e in events {
-                if !names.contains(&e.condition) {
-                    names.push(e.condition.clone());
-                }
-            }
-            names.into_iter().map(|n| (n, 0, Vec::new())).collect()
+            super::tables::condition_names(events)
+                .into_iter()
+                .map(|n| (n, 0, Vec::new()))
+                .collect()
         } else {
             windows
                 .iter()

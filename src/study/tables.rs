@@ -374,6 +374,18 @@ pub fn events(table: &RawTable, dyads: &[Dyad], problems: &mut Problems) -> Vec<
     out
 }
 
+/// Condition names in order of first appearance in the events table; the order every output
+/// lists conditions in.
+pub fn condition_names(events: &[Event]) -> Vec<String> {
+    let mut names: Vec<String> = Vec::new();
+    for e in events {
+        if !names.contains(&e.condition) {
+            names.push(e.condition.clone());
+        }
+    }
+    names
+}
+
 /// Channels in table order, each with its ROI.
 pub fn channels(table: &RawTable, problems: &mut Problems) -> Vec<Channel> {
     if !require_columns(table, &["channel", "roi"], problems) {

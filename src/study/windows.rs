@@ -68,13 +68,7 @@ pub fn build(
     problems: &mut Problems,
     warnings: &mut Vec<String>,
 ) -> Vec<ConditionWindows> {
-    // Condition order: first appearance in the events table.
-    let mut names: Vec<String> = Vec::new();
-    for e in events {
-        if !names.contains(&e.condition) {
-            names.push(e.condition.clone());
-        }
-    }
+    let names = super::tables::condition_names(events);
     for (d, dyad) in dyads.iter().enumerate() {
         if !events.iter().any(|e| e.dyad == d) {
             problems.push(
