@@ -271,6 +271,8 @@ pub fn analyse(
     lap("re-pairings", &mut timings);
     let synchrony = synchrony(&study, &plan, opts.memory_bytes, progress)?;
     lap("synchrony", &mut timings);
+    timings.push(("transforms".to_string(), synchrony.timing.transforms_s));
+    timings.push(("pairs".to_string(), synchrony.timing.pairs_s));
     let cells = cells(&synchrony);
     let layout = null_layout(&study, &plan, keep_real);
     let draws = inference::Draws {

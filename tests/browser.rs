@@ -322,6 +322,7 @@ fn sample_report() -> ReportData {
         channel_pairs: "same".into(),
         min_channels_per_roi: 2,
         context_s: 90.0,
+        coarse_grid: true,
         block_lengths: vec![
             ("task".into(), vec![120.0, 118.5]),
             ("a&b\"c".into(), vec![60.0; 3]),

@@ -10,14 +10,16 @@
 //! number of threads. Memory is bounded by tiling the members of a slice when one slice of all
 //! members would exceed the budget. The engine never prints: it reports to a [`Progress`].
 
+mod kernel;
 pub mod progress;
 mod slice;
 pub mod values;
 
 use rayon::prelude::*;
 
+use kernel::Kernel;
 pub use progress::{Bars, Progress, Recorded, Silent};
-pub use values::{Acc, Synchrony};
+pub use values::{Acc, EngineTiming, Synchrony};
 
 use crate::spectral::{Complex64, band_scale_grid};
 use crate::study::Study;
@@ -92,7 +94,7 @@ pub fn compute(
         let window = &study.conditions[cond].blocks[block_idx];
         let n = window.segment_len();
         for band in 0..syn.bands.len() {
-            let plans = match cfg.measure {
+            let kernel = match cfg.measure {
                 Measure::Wtc => {
                     let b = &study.config.bands[band];
                     let grid = band_scale_grid(
@@ -101,20 +103,16 @@ pub fn compute(
                         cfg.omega0,
                         cfg.scales_per_octave,
                     );
-                    let wavelet = crate::spectral::morlet::WaveletPlan::new(
+                    let kernel = Kernel::new(
+                        cfg.time_grid,
                         n,
                         study.dt,
                         cfg.omega0,
-                        &grid.scales,
-                    );
-                    let coherence = crate::spectral::coherence::CoherencePlan::new(
-                        n,
-                        study.dt,
                         &grid,
                         window.block_in_segment(),
                     );
-                    syn.weights[cb * syn.bands.len() + band] = coherence.n_points() as f64;
-                    Some((wavelet, coherence))
+                    syn.weights[cb * syn.bands.len() + band] = kernel.n_points() as f64;
+                    Some(kernel)
                 }
                 Measure::Corr => {
                     syn.weights[cb * syn.bands.len() + band] = window.length as f64;
@@ -128,11 +126,13 @@ pub fn compute(
                         window,
                         chromophore: chrom,
                         channels: group,
-                        plans: plans.as_ref(),
+                        kernel: kernel.as_ref(),
                         members_used: members_used as usize,
                         memory_bytes: options.memory_bytes,
                     };
                     let contributions = slice::run(&ctx, pairs, progress)?;
+                    syn.timing.transforms_s += contributions.transform_s;
+                    syn.timing.pairs_s += contributions.pair_s;
                     syn.add_slice(cb, chrom, band, &contributions);
                 }
             }

@@ -6,15 +6,14 @@
 //! held at a time; each pair still lands in its own slot, so tiling never changes a value.
 
 use std::collections::BTreeMap;
+use std::time::Instant;
 
 use super::progress::Progress;
 use rayon::prelude::*;
 
-use super::{EngineError, PairRef, bytes_per_member_channel, par_map_init};
-use crate::spectral::Complex64;
-use crate::spectral::coherence::CoherencePlan;
+use super::kernel::{Kernel, MemberData};
+use super::{EngineError, PairRef, par_map_init};
 use crate::spectral::correlation::{fisher_z, pearson};
-use crate::spectral::morlet::WaveletPlan;
 use crate::study::{BlockWindow, Study};
 
 pub struct SliceContext<'a> {
@@ -23,7 +22,7 @@ pub struct SliceContext<'a> {
     pub chromophore: usize,
     pub channels: &'a [usize],
     /// `None` for correlation, which needs no transform.
-    pub plans: Option<&'a (WaveletPlan, CoherencePlan)>,
+    pub kernel: Option<&'a Kernel>,
     pub members_used: usize,
     pub memory_bytes: u64,
 }
@@ -47,16 +46,13 @@ const MISSING: Contribution = Contribution {
     sum_sin: 0.0,
 };
 
-/// The contributions of every pair, `per_pair` consecutive entries per pair.
+/// The contributions of every pair, `per_pair` consecutive entries per pair, and the wall
+/// time spent on members' transforms and on pairs.
 pub struct SliceResult {
     pub per_pair: usize,
     pub values: Vec<Contribution>,
-}
-
-/// A member's cached transform and smoothed power for one channel.
-struct Cached {
-    w: Vec<Complex64>,
-    p: Vec<f64>,
+    pub transform_s: f64,
+    pub pair_s: f64,
 }
 
 pub fn run(
@@ -67,17 +63,19 @@ pub fn run(
     let nch = ctx.channels.len();
     let per_pair = nch * nch;
     let mut values = vec![MISSING; pairs.len() * per_pair];
-    let Some(plans) = ctx.plans else {
+    let Some(kernel) = ctx.kernel else {
+        let clock = Instant::now();
         correlation(ctx, pairs, &mut values, per_pair);
         progress.advance(1, pairs.len() as u64);
-        return Ok(SliceResult { per_pair, values });
+        return Ok(SliceResult {
+            per_pair,
+            values,
+            transform_s: 0.0,
+            pair_s: clock.elapsed().as_secs_f64(),
+        });
     };
-    let (wavelet, coherence) = plans;
-    let per_member = bytes_per_member_channel(
-        wavelet.n_scales(),
-        wavelet.n_samples(),
-        coherence.power_len(),
-    ) * nch as u64;
+    let (mut transform_s, mut pair_s) = (0.0, 0.0);
+    let per_member = kernel.member_bytes() * nch as u64;
     let cap = (ctx.memory_bytes / per_member.max(1)) as usize;
     if cap < 2 {
         return Err(EngineError::Budget {
@@ -100,12 +98,19 @@ pub fn run(
             .iter()
             .flat_map(|&m| ctx.channels.iter().map(move |&c| (m, c)))
             .collect();
-        let caches: Vec<Option<Cached>> = par_map_init(
+        let clock = Instant::now();
+        let caches: Vec<Option<MemberData>> = par_map_init(
             &jobs,
-            || vec![Complex64::new(0.0, 0.0); wavelet.scratch_len().max(coherence.scratch_len())],
-            |scratch, &(m, c)| transform(ctx, wavelet, coherence, m, c, scratch),
+            || kernel.scratch(),
+            |scratch, &(m, c)| {
+                let signal = ctx.study.signal(m, c, ctx.chromophore)?;
+                let range = ctx.window.segment(m)?;
+                Some(kernel.member(&signal[range], scratch))
+            },
         );
+        transform_s += clock.elapsed().as_secs_f64();
         progress.advance(0, jobs.len() as u64);
+        let clock = Instant::now();
         let index: BTreeMap<(usize, usize), usize> =
             jobs.iter().enumerate().map(|(i, j)| (*j, i)).collect();
         let mut tile_values = vec![MISSING; tile.len() * per_pair];
@@ -113,7 +118,7 @@ pub fn run(
             .par_chunks_mut(per_pair)
             .zip(tile.par_iter())
             .for_each_init(
-                || vec![Complex64::new(0.0, 0.0); coherence.scratch_len()],
+                || kernel.scratch(),
                 |scratch, (out, &pi)| {
                     let p = pairs[pi];
                     let combos = ctx
@@ -125,7 +130,7 @@ pub fn run(
                         let y = caches[index[&(p.b, cb)]].as_ref();
                         *slot = match (x, y) {
                             (Some(x), Some(y)) => {
-                                let r = coherence.coherence(&x.w, &y.w, &x.p, &y.p, scratch);
+                                let r = kernel.coherence(x, y, scratch);
                                 Contribution {
                                     channel_a: ca,
                                     channel_b: cb,
@@ -147,9 +152,15 @@ pub fn run(
             values[pi * per_pair..(pi + 1) * per_pair]
                 .copy_from_slice(&tile_values[k * per_pair..(k + 1) * per_pair]);
         }
+        pair_s += clock.elapsed().as_secs_f64();
         progress.advance(1, tile.len() as u64);
     }
-    Ok(SliceResult { per_pair, values })
+    Ok(SliceResult {
+        per_pair,
+        values,
+        transform_s,
+        pair_s,
+    })
 }
 
 const GIB: f64 = (1u64 << 30) as f64;
@@ -170,27 +181,6 @@ fn tiles(pairs: &[PairRef], members_used: usize, cap: usize) -> Vec<Vec<usize>> 
             .push(i);
     }
     by_tile.into_values().collect()
-}
-
-fn transform(
-    ctx: &SliceContext,
-    wavelet: &WaveletPlan,
-    coherence: &CoherencePlan,
-    member: usize,
-    channel: usize,
-    scratch: &mut [Complex64],
-) -> Option<Cached> {
-    let signal = ctx.study.signal(member, channel, ctx.chromophore)?;
-    let range = ctx.window.segment(member)?;
-    let mut w = vec![Complex64::new(0.0, 0.0); wavelet.n_scales() * wavelet.n_samples()];
-    wavelet.transform_into(
-        &signal[range],
-        &mut w,
-        &mut scratch[..wavelet.scratch_len()],
-    );
-    let mut p = vec![0.0; coherence.power_len()];
-    coherence.smoothed_power_into(&w, &mut p, &mut scratch[..coherence.scratch_len()]);
-    Some(Cached { w, p })
 }
 
 /// Pearson r over the block samples (no context), as Fisher's z.

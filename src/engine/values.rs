@@ -24,6 +24,13 @@ pub struct Acc {
     pub sum_sin: f64,
 }
 
+/// Wall time the engine spent on members' transforms and on pairs, summed over slices.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct EngineTiming {
+    pub transforms_s: f64,
+    pub pairs_s: f64,
+}
+
 /// Every pair's values, and the labels that index them.
 #[derive(Clone, Debug)]
 pub struct Synchrony {
@@ -43,6 +50,8 @@ pub struct Synchrony {
     pub block_numbers: Vec<usize>,
     /// Per (block, band): the weight of the block in its condition value.
     pub weights: Vec<f64>,
+    /// Wall times; not part of any result.
+    pub timing: EngineTiming,
     min_channels: u32,
     roi_of_channel: Vec<usize>,
     n_base_rois: usize,
@@ -101,6 +110,7 @@ impl Synchrony {
             conditions: study.conditions.iter().map(|c| c.name.clone()).collect(),
             chromophores: cfg.chromophores.clone(),
             weights: vec![0.0; blocks.len() * bands.len()],
+            timing: EngineTiming::default(),
             bands,
             rois,
             blocks,

@@ -107,6 +107,8 @@ pub struct MethodsInput {
     pub min_channels_per_roi: usize,
     /// Context kept on each side of a block, in seconds.
     pub context_s: f64,
+    /// Whether WTC was evaluated on the coarsened time grid rather than at every sample.
+    pub coarse_grid: bool,
     /// Condition and its analysed block lengths in seconds.
     pub block_lengths: Vec<(String, Vec<f64>)>,
     pub mode: String,

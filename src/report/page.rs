@@ -5,7 +5,7 @@ use super::plan::PlanAudit;
 use crate::inference::TestKind;
 use crate::pairing::Status;
 use crate::pipeline::Analysis;
-use crate::study::config::{ChannelPairs, Measure};
+use crate::study::config::{ChannelPairs, Measure, TimeGrid};
 
 fn cell_label(k: &crate::inference::CellKey) -> String {
     format!(
@@ -37,6 +37,7 @@ pub fn methods_input(a: &Analysis, audit: &PlanAudit) -> MethodsInput {
         },
         min_channels_per_roi: s.min_channels_per_roi,
         context_s: s.context_s,
+        coarse_grid: s.time_grid == TimeGrid::Coarse,
         block_lengths: a
             .study
             .conditions

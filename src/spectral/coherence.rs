@@ -149,21 +149,13 @@ impl CoherencePlan {
             window.start <= window.end && window.end <= n_samples,
             "CoherencePlan: window {window:?} not inside 0..{n_samples}"
         );
-        check_len("grid periods", grid.scales.len(), grid.periods.len());
         let boxcar = scale_boxcar(grid.scales_per_octave);
         let halo = (boxcar.len() - 1) / 2;
         debug_assert!(
             boxcar.len() < 3 || boxcar[1..boxcar.len() - 1].iter().all(|w| *w == boxcar[1]),
             "boxcar interior weights must be equal: {boxcar:?}"
         );
-        assert!(
-            grid.band.start >= halo
-                && grid.band.start < grid.band.end
-                && grid.band.end + halo <= grid.scales.len(),
-            "CoherencePlan: band {:?} of {} scales lacks the {halo}-scale halo",
-            grid.band,
-            grid.scales.len()
-        );
+        grid.assert_halo(halo, "CoherencePlan");
         let n = n_samples;
         let n_band = grid.band.len();
         let first_scale = grid.band.start - halo;

@@ -10,6 +10,7 @@
 //! J. Climate 12:2679–2690 (smoothing for coherence); Grinsted, Moore & Jevrejeva (2004),
 //! Nonlin. Processes Geophys. 11:561–566 (WTC definition).
 
+pub mod coarse;
 pub mod coherence;
 pub mod correlation;
 pub mod morlet;
@@ -53,6 +54,21 @@ impl ScaleGrid {
     /// Number of grid scales on each side of the band that exist only to feed the smoothing.
     pub fn halo(&self) -> usize {
         self.band.start
+    }
+
+    /// Panics unless the band has `halo` smoothing scales on both sides, as grids from
+    /// [`band_scale_grid`] do; `who` names the caller in the message.
+    #[track_caller]
+    pub(crate) fn assert_halo(&self, halo: usize, who: &str) {
+        check_len("grid periods", self.scales.len(), self.periods.len());
+        assert!(
+            self.band.start >= halo
+                && self.band.start < self.band.end
+                && self.band.end + halo <= self.scales.len(),
+            "{who}: band {:?} of {} scales lacks the {halo}-scale halo",
+            self.band,
+            self.scales.len()
+        );
     }
 }
 

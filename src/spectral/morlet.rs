@@ -143,6 +143,38 @@ impl WaveletPlan {
         2 * self.padded + self.fft_scratch
     }
 
+    /// Workspace the forward FFT of [`Self::spectrum_into`] needs.
+    pub fn fft_scratch_len(&self) -> usize {
+        self.fft_scratch
+    }
+
+    /// Step 1–2 of the module docs: the mean-removed, zero-padded segment's DFT (unscaled;
+    /// the `1/N` lives in the filter gains). Shared with the coarse-grid evaluation, which
+    /// reads the transform only at a subset of instants.
+    pub fn spectrum_into(
+        &self,
+        signal: &[f64],
+        spectrum: &mut [Complex64],
+        fft_scratch: &mut [Complex64],
+    ) {
+        let n = self.n;
+        check_len("wavelet input signal", n, signal.len());
+        check_len("wavelet spectrum", self.padded, spectrum.len());
+        let mean = signal.iter().sum::<f64>() / n as f64;
+        for (z, &x) in spectrum.iter_mut().zip(signal) {
+            *z = Complex64::new(x - mean, 0.0);
+        }
+        spectrum[n..].fill(Complex64::new(0.0, 0.0));
+        self.forward
+            .process_with_scratch(spectrum, &mut fft_scratch[..self.fft_scratch]);
+    }
+
+    /// Scale `j`'s filter: the first nonzero bin and the gains `ψ̂(s ω_k)/N` from there on.
+    pub fn filter(&self, j: usize) -> (usize, &[f64]) {
+        let f = &self.bank[j];
+        (f.first_bin, &f.gain)
+    }
+
     /// `out[j*n + t] = W_t(s_j)`. The scratch content on entry does not matter and nothing is
     /// allocated, so one scratch per thread serves every call.
     pub fn transform_into(&self, signal: &[f64], out: &mut [Complex64], scratch: &mut [Complex64]) {
@@ -152,12 +184,7 @@ impl WaveletPlan {
         check_len("wavelet scratch", self.scratch_len(), scratch.len());
         let (spectrum, rest) = scratch.split_at_mut(self.padded);
         let (work, fft_scratch) = rest.split_at_mut(self.padded);
-        let mean = signal.iter().sum::<f64>() / n as f64;
-        for (z, &x) in spectrum.iter_mut().zip(signal) {
-            *z = Complex64::new(x - mean, 0.0);
-        }
-        spectrum[n..].fill(Complex64::new(0.0, 0.0));
-        self.forward.process_with_scratch(spectrum, fft_scratch);
+        self.spectrum_into(signal, spectrum, fft_scratch);
         for (filter, row) in self.bank.iter().zip(out.chunks_exact_mut(n)) {
             work.fill(Complex64::new(0.0, 0.0));
             let bins = filter.first_bin..filter.first_bin + filter.gain.len();
