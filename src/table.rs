@@ -239,6 +239,17 @@ impl RawTable {
 /// Reads a table in the format its extension names. Text formats are read with every column as
 /// text (no type inference), so the caller decides what a number is.
 pub fn read_table(path: &Path) -> Result<RawTable, TableError> {
+    read_with(path, false)
+}
+
+/// As [`read_table`], for tables of numbers (recordings): a text column whose every non-empty
+/// cell parses as a number comes back as numbers, without one string per cell; any other
+/// column stays text, so the caller can still name the offending cell.
+pub fn read_numeric_table(path: &Path) -> Result<RawTable, TableError> {
+    read_with(path, true)
+}
+
+fn read_with(path: &Path, numeric: bool) -> Result<RawTable, TableError> {
     if !path.is_file() {
         return Err(TableError::NotFound {
             path: path.to_path_buf(),
@@ -270,15 +281,21 @@ pub fn read_table(path: &Path) -> Result<RawTable, TableError> {
                 .map_err(|e| read_err(e.to_string()))?
         }
     };
-    from_frame(path, &df).map_err(|e| read_err(e.to_string()))
+    from_frame(path, &df, numeric).map_err(|e| read_err(e.to_string()))
 }
 
-fn from_frame(path: &Path, df: &DataFrame) -> PolarsResult<RawTable> {
+fn from_frame(path: &Path, df: &DataFrame, numeric: bool) -> PolarsResult<RawTable> {
     let mut headers = Vec::with_capacity(df.width());
     let mut columns = Vec::with_capacity(df.width());
     for col in df.columns() {
         headers.push(col.name().trim().to_string());
-        let raw = if col.dtype().is_primitive_numeric() {
+        // A strict cast fails on any cell that is not a number; the text path then names it.
+        let parsed = (numeric && col.dtype() == &DataType::String)
+            .then(|| col.strict_cast(&DataType::Float64).ok())
+            .flatten();
+        let raw = if let Some(f) = parsed {
+            RawColumn::Number(f.f64()?.iter().collect())
+        } else if col.dtype().is_primitive_numeric() {
             let f = col.cast(&DataType::Float64)?;
             RawColumn::Number(f.f64()?.iter().collect())
         } else {
@@ -348,5 +365,23 @@ mod tests {
     fn missing_file_is_named() {
         let err = read_table(Path::new("/nonexistent/x.tsv")).unwrap_err();
         assert!(err.to_string().contains("/nonexistent/x.tsv"));
+    }
+
+    /// Numbers come back as numbers (empty cells missing); a column with any text stays text
+    /// in full, so the caller can name the cell.
+    #[test]
+    fn numeric_reading_keeps_text_columns_as_text() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("r.csv");
+        std::fs::write(&path, "time,a,b\n0,1.5,x\n0.5,,2\n1,-2e-3,3\n").unwrap();
+        let raw = read_numeric_table(&path).unwrap();
+        match &raw.columns[1] {
+            RawColumn::Number(v) => assert_eq!(v, &vec![Some(1.5), None, Some(-0.002)]),
+            other => panic!("expected numbers, got {other:?}"),
+        }
+        match &raw.columns[2] {
+            RawColumn::Text(v) => assert_eq!(v[0].as_deref(), Some("x")),
+            other => panic!("expected text, got {other:?}"),
+        }
     }
 }

@@ -11,7 +11,7 @@ use rayon::prelude::*;
 
 use super::problem::{Problem, Problems};
 use super::tables::{Channel, Member};
-use crate::table::{RawColumn, RawTable, read_table};
+use crate::table::{RawColumn, RawTable, read_numeric_table};
 
 /// Allowed deviation of one sampling interval from the recording's typical interval.
 pub const SAMPLING_TOLERANCE: f64 = 0.01;
@@ -84,7 +84,7 @@ fn read_one(
         );
         return None;
     }
-    let table = match read_table(&path) {
+    let table = match read_numeric_table(&path) {
         Ok(t) => t,
         Err(e) => {
             problems.push(Problem::new(e.to_string()).member(&m.id));
