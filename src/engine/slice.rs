@@ -83,7 +83,10 @@ pub fn run(
             need_gib: 2.0 * per_member as f64 / GIB,
         });
     }
-    for tile in tiles(pairs, ctx.members_used, cap) {
+    for mut tile in tiles(pairs, ctx.members_used, cap) {
+        // Pairs in small squares of the pairing matrix, so that neighbouring pairs share
+        // members whose data are still in cache; each value still lands in its own slot.
+        tile.sort_by_key(|&i| (pairs[i].row / LOCALITY, pairs[i].col / LOCALITY, i));
         let members: Vec<usize> = {
             let mut m: Vec<usize> = tile
                 .iter()
@@ -164,6 +167,9 @@ pub fn run(
 }
 
 const GIB: f64 = (1u64 << 30) as f64;
+
+/// Side of the squares of the pairing matrix that are computed together.
+const LOCALITY: usize = 16;
 
 /// Groups pair indices into tiles whose members fit in `cap` caches. With room for every member
 /// there is one tile; otherwise square tiles of the pairing matrix, `cap / 2` rows by `cap / 2`

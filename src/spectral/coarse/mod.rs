@@ -14,8 +14,8 @@
 //!    `Σ_j G(τ, j)·P(jE)` with `G(τ, j) = Σ_u g̃(τ−u)·hat((u − jE)/E)`. Linear interpolation
 //!    smooths by an extra variance `E²/6` (the hat's), so `g̃` is the Gaussian of variance
 //!    `s² − (E·dt)²/6` with the same mass: the composite kernel keeps the Gaussian's first
-//!    two moments. Lags beyond `TRUNCATE_SCALES·s` are dropped (they carry under 10⁻⁶ of the
-//!    mass). The weights are non-negative and the powers use the same weights as the
+//!    two moments. Lags beyond `TRUNCATE_SCALES·s` are dropped (they carry under 10⁻⁴ of the
+//!    mass, and numerator and powers lose the same lags). The weights are non-negative and the powers use the same weights as the
 //!    cross-spectrum, so `R² ≤ 1` still holds exactly (Cauchy–Schwarz).
 //! 3. *Band average by Simpson's rule.* A band scale's points outside the cone are a run
 //!    `[a, b)`; `R²` is evaluated at `M_r + 1` equally spaced instants over `[a, b − 1]`
@@ -46,7 +46,7 @@ pub const NODES_PER_SCALE: f64 = 2.0;
 /// Output instants per scale of a band row: spacing `≤ s / OUTPUT_PER_SCALE`.
 pub const OUTPUT_PER_SCALE: f64 = 2.0;
 /// Time-smoothing lags kept, in scales.
-pub const TRUNCATE_SCALES: f64 = 5.0;
+pub const TRUNCATE_SCALES: f64 = 4.0;
 
 const LANES: usize = 4;
 
@@ -235,10 +235,7 @@ impl CoarsePlan {
             let px = &x.power[row.p_offset..row.p_offset + row.quad.len()];
             let py = &y.power[row.p_offset..row.p_offset + row.quad.len()];
             for (i, ((w, p), q)) in row.quad.iter().zip(px).zip(py).enumerate() {
-                let (cr, ci) = (
-                    self.boxcar_at(row, i, &sc.tre),
-                    self.boxcar_at(row, i, &sc.tim),
-                );
+                let (cr, ci) = self.boxcar_pair_at(row, i, &sc.tre, &sc.tim);
                 let (r2, cos, sin) = point(cr, ci, *p, *q);
                 sum_r2 += w * r2;
                 sum_cos += w * cos;
@@ -253,8 +250,20 @@ impl CoarsePlan {
         }
     }
 
+    /// [`Self::boxcar_at`] of the real and imaginary parts in one pass.
+    #[inline(always)]
+    fn boxcar_pair_at(&self, row: &Row, i: usize, tre: &[f64], tim: &[f64]) -> (f64, f64) {
+        let (mut re, mut im) = (0.0, 0.0);
+        for (b, feed) in self.boxcar.iter().zip(&row.feeds) {
+            let k = feed[i] as usize;
+            re += b * tre[k];
+            im += b * tim[k];
+        }
+        (re, im)
+    }
+
     /// `Σ_k b_k · T_{r+k}(τ_i)` for one row instant, from the stage instants `t`.
-    #[inline]
+    #[inline(always)]
     fn boxcar_at(&self, row: &Row, i: usize, t: &[f64]) -> f64 {
         let mut acc = 0.0;
         for (b, feed) in self.boxcar.iter().zip(&row.feeds) {
@@ -265,7 +274,7 @@ impl CoarsePlan {
 }
 
 /// `W_x·conj(W_y)` at the nodes, split into real and imaginary parts.
-#[inline]
+#[inline(always)]
 fn products(xr: &[f64], xi: &[f64], yr: &[f64], yi: &[f64], pre: &mut [f64], pim: &mut [f64]) {
     let n = xr.len();
     let (pre, pim) = (&mut pre[..n], &mut pim[..n]);
@@ -277,7 +286,7 @@ fn products(xr: &[f64], xi: &[f64], yr: &[f64], yi: &[f64], pre: &mut [f64], pim
 }
 
 /// Time smoothing of one stage at its instants: one weighted sum of `taps` nodes each.
-#[inline]
+#[inline(always)]
 fn smooth_stage(st: &Stage, pre: &[f64], pim: &[f64], tre: &mut [f64], tim: &mut [f64]) {
     let taps = st.taps;
     for (i, (&start, w)) in st
