@@ -95,6 +95,32 @@ impl Kernel {
         }
     }
 
+    /// Band coherence of the pairs `(xs[i], ys[i])`, several at once where the grid allows.
+    pub fn coherence_many(
+        &self,
+        xs: &[&MemberData],
+        ys: &[&MemberData],
+        scratch: &mut Scratch,
+    ) -> Vec<BandCoherence> {
+        if let (Kernel::Coarse(c), Scratch::Coarse(s)) = (self, &mut *scratch) {
+            let x: Vec<&MemberNodes> = xs.iter().map(|m| coarse_nodes(m)).collect();
+            let y: Vec<&MemberNodes> = ys.iter().map(|m| coarse_nodes(m)).collect();
+            let empty = BandCoherence {
+                sum_r2: 0.0,
+                n_points: 0,
+                sum_cos: 0.0,
+                sum_sin: 0.0,
+            };
+            let mut out = vec![empty; xs.len()];
+            c.coherence_many(&x, &y, &mut out, s);
+            return out;
+        }
+        xs.iter()
+            .zip(ys)
+            .map(|(x, y)| self.coherence(x, y, scratch))
+            .collect()
+    }
+
     pub fn coherence(
         &self,
         x: &MemberData,
@@ -116,5 +142,12 @@ impl Kernel {
             ) => coherence.coherence(wx, wy, px, py, &mut s[..coherence.scratch_len()]),
             _ => unreachable!("member data or scratch built by another kernel"),
         }
+    }
+}
+
+fn coarse_nodes(m: &MemberData) -> &MemberNodes {
+    match m {
+        MemberData::Coarse(n) => n,
+        MemberData::Full { .. } => unreachable!("member data built by another kernel"),
     }
 }

@@ -13,6 +13,7 @@ use rayon::prelude::*;
 
 use super::kernel::{Kernel, MemberData};
 use super::{EngineError, PairRef, par_map_init};
+use crate::spectral::coarse::GROUP;
 use crate::spectral::correlation::{fisher_z, pearson};
 use crate::study::{BlockWindow, Study};
 
@@ -117,37 +118,45 @@ pub fn run(
         let index: BTreeMap<(usize, usize), usize> =
             jobs.iter().enumerate().map(|(i, j)| (*j, i)).collect();
         let mut tile_values = vec![MISSING; tile.len() * per_pair];
+        let combos: Vec<(usize, usize)> = ctx
+            .channels
+            .iter()
+            .flat_map(|&ca| ctx.channels.iter().map(move |&cb| (ca, cb)))
+            .collect();
+        // Groups of consecutive pairs go through the kernel side by side; each pair's
+        // arithmetic is the same whatever its group, so grouping never changes a value.
         tile_values
-            .par_chunks_mut(per_pair)
-            .zip(tile.par_iter())
+            .par_chunks_mut(per_pair * GROUP)
+            .zip(tile.par_chunks(GROUP))
             .for_each_init(
                 || kernel.scratch(),
-                |scratch, (out, &pi)| {
-                    let p = pairs[pi];
-                    let combos = ctx
-                        .channels
-                        .iter()
-                        .flat_map(|&ca| ctx.channels.iter().map(move |&cb| (ca, cb)));
-                    for (slot, (ca, cb)) in out.iter_mut().zip(combos) {
-                        let x = caches[index[&(p.a, ca)]].as_ref();
-                        let y = caches[index[&(p.b, cb)]].as_ref();
-                        *slot = match (x, y) {
-                            (Some(x), Some(y)) => {
-                                let r = kernel.coherence(x, y, scratch);
-                                Contribution {
-                                    channel_a: ca,
-                                    channel_b: cb,
-                                    value: r.mean_r2(),
-                                    sum_cos: r.sum_cos,
-                                    sum_sin: r.sum_sin,
-                                }
-                            }
-                            _ => Contribution {
+                |scratch, (out, group)| {
+                    for (c, &(ca, cb)) in combos.iter().enumerate() {
+                        let mut lanes = Vec::with_capacity(GROUP);
+                        let (mut xs, mut ys) =
+                            (Vec::with_capacity(GROUP), Vec::with_capacity(GROUP));
+                        for (k, &pi) in group.iter().enumerate() {
+                            let p = pairs[pi];
+                            out[k * per_pair + c] = Contribution {
                                 channel_a: ca,
                                 channel_b: cb,
                                 ..MISSING
-                            },
-                        };
+                            };
+                            let x = caches[index[&(p.a, ca)]].as_ref();
+                            let y = caches[index[&(p.b, cb)]].as_ref();
+                            if let (Some(x), Some(y)) = (x, y) {
+                                lanes.push(k);
+                                xs.push(x);
+                                ys.push(y);
+                            }
+                        }
+                        let results = kernel.coherence_many(&xs, &ys, scratch);
+                        for (k, r) in lanes.into_iter().zip(results) {
+                            let slot = &mut out[k * per_pair + c];
+                            slot.value = r.mean_r2();
+                            slot.sum_cos = r.sum_cos;
+                            slot.sum_sin = r.sum_sin;
+                        }
                     }
                 },
             );

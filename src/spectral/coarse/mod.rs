@@ -48,7 +48,8 @@ pub const OUTPUT_PER_SCALE: f64 = 2.0;
 /// Time-smoothing lags kept, in scales.
 pub const TRUNCATE_SCALES: f64 = 4.0;
 
-const LANES: usize = 4;
+/// Pairs the kernel carries side by side (vector lanes across pairs).
+pub const GROUP: usize = 8;
 
 /// One member's transform at the plan's nodes (split real and imaginary parts, stage after
 /// stage) and its smoothed power at every band row's instants.
@@ -159,10 +160,10 @@ impl CoarsePlan {
             spectrum: vec![zero; self.wavelet.padded_len()],
             fold: vec![zero; self.max_fold],
             fft: vec![zero; self.fft_scratch],
-            pre: vec![0.0; self.max_nodes],
-            pim: vec![0.0; self.max_nodes],
-            tre: vec![0.0; self.n_instants],
-            tim: vec![0.0; self.n_instants],
+            pre: vec![0.0; self.max_nodes * GROUP],
+            pim: vec![0.0; self.max_nodes * GROUP],
+            tre: vec![0.0; self.n_instants * GROUP],
+            tim: vec![0.0; self.n_instants * GROUP],
         }
     }
 
@@ -192,19 +193,20 @@ impl CoarsePlan {
                 im[o + j] = z.im;
             }
         }
-        let mut power = vec![0.0; self.power_len];
-        for st in self.stages.iter().filter(|s| s.n_nodes > 0) {
-            let o = st.offset..st.offset + st.n_nodes;
-            let (xr, xi) = (&re[o.clone()], &im[o]);
-            products(xr, xi, xr, xi, &mut sc.pre, &mut sc.pim);
-            smooth_stage(st, &sc.pre, &sc.pim, &mut sc.tre, &mut sc.tim);
-        }
+        let mut member = MemberNodes {
+            re,
+            im,
+            power: vec![0.0; self.power_len],
+        };
+        // The cross-spectrum of the member with itself: the same arithmetic as a pair's, so
+        // that R² of a signal with itself is 1 to the last bit.
+        self.smooth_all::<1>(&[&member], &[&member], sc);
         for row in &self.rows {
             for i in 0..row.quad.len() {
-                power[row.p_offset + i] = self.boxcar_at(row, i, &sc.tre);
+                member.power[row.p_offset + i] = self.boxcar_at::<1>(row, i, &sc.tre)[0];
             }
         }
-        MemberNodes { re, im, power }
+        member
     }
 
     /// Band coherence of one pair from the two members' nodes. Nothing is allocated.
@@ -214,131 +216,163 @@ impl CoarsePlan {
         y: &MemberNodes,
         sc: &mut CoarseScratch,
     ) -> BandCoherence {
-        check_len("coarse nodes x", self.member_len, x.re.len());
-        check_len("coarse nodes y", self.member_len, y.re.len());
-        check_len("coarse power x", self.power_len, x.power.len());
-        check_len("coarse power y", self.power_len, y.power.len());
-        for st in self.stages.iter().filter(|s| s.n_nodes > 0) {
-            let o = st.offset..st.offset + st.n_nodes;
-            products(
-                &x.re[o.clone()],
-                &x.im[o.clone()],
-                &y.re[o.clone()],
-                &y.im[o],
-                &mut sc.pre,
-                &mut sc.pim,
-            );
-            smooth_stage(st, &sc.pre, &sc.pim, &mut sc.tre, &mut sc.tim);
+        self.lanes::<1>(&[x], &[y], sc)[0]
+    }
+
+    /// Band coherence of many pairs (`xs[i]` with `ys[i]`) into `out`, [`GROUP`] at a time.
+    /// Each pair's arithmetic is the same operation for operation as [`Self::coherence`], only
+    /// carried out for several pairs side by side, so the bits do not depend on the grouping.
+    pub fn coherence_many(
+        &self,
+        xs: &[&MemberNodes],
+        ys: &[&MemberNodes],
+        out: &mut [BandCoherence],
+        sc: &mut CoarseScratch,
+    ) {
+        check_len("pairs' second members", xs.len(), ys.len());
+        check_len("pairs' results", xs.len(), out.len());
+        let whole = xs.len() / GROUP * GROUP;
+        for ((x, y), o) in xs[..whole]
+            .chunks_exact(GROUP)
+            .zip(ys[..whole].chunks_exact(GROUP))
+            .zip(out[..whole].chunks_exact_mut(GROUP))
+        {
+            let x: &[&MemberNodes; GROUP] = x.try_into().expect("chunk of GROUP");
+            let y: &[&MemberNodes; GROUP] = y.try_into().expect("chunk of GROUP");
+            o.copy_from_slice(&self.group(x, y, sc));
         }
-        let (mut sum_r2, mut sum_cos, mut sum_sin) = (0.0, 0.0, 0.0);
+        for ((x, y), o) in xs[whole..].iter().zip(&ys[whole..]).zip(&mut out[whole..]) {
+            *o = self.coherence(x, y, sc);
+        }
+    }
+
+    /// [`Self::lanes`] for a full group, compiled a second time with AVX2 for machines that
+    /// have it (chosen at run time). Without fused multiply-add and with every operation in
+    /// the same order, both builds give the same bits.
+    fn group(
+        &self,
+        xs: &[&MemberNodes; GROUP],
+        ys: &[&MemberNodes; GROUP],
+        sc: &mut CoarseScratch,
+    ) -> [BandCoherence; GROUP] {
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2, checked just above.
+            return unsafe { self.group_avx2(xs, ys, sc) };
+        }
+        self.lanes::<GROUP>(xs, ys, sc)
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn group_avx2(
+        &self,
+        xs: &[&MemberNodes; GROUP],
+        ys: &[&MemberNodes; GROUP],
+        sc: &mut CoarseScratch,
+    ) -> [BandCoherence; GROUP] {
+        self.lanes::<GROUP>(xs, ys, sc)
+    }
+
+    /// The pair kernel for `G` pairs side by side: lane `l` is pair `(xs[l], ys[l])`.
+    #[inline(always)]
+    fn lanes<const G: usize>(
+        &self,
+        xs: &[&MemberNodes; G],
+        ys: &[&MemberNodes; G],
+        sc: &mut CoarseScratch,
+    ) -> [BandCoherence; G] {
+        for m in xs.iter().chain(ys) {
+            check_len("coarse nodes", self.member_len, m.re.len());
+            check_len("coarse power", self.power_len, m.power.len());
+        }
+        self.smooth_all::<G>(xs, ys, sc);
+        let (mut s_r2, mut s_cos, mut s_sin) = ([0.0f64; G], [0.0f64; G], [0.0f64; G]);
         for row in &self.rows {
-            let px = &x.power[row.p_offset..row.p_offset + row.quad.len()];
-            let py = &y.power[row.p_offset..row.p_offset + row.quad.len()];
-            for (i, ((w, p), q)) in row.quad.iter().zip(px).zip(py).enumerate() {
-                let (cr, ci) = self.boxcar_pair_at(row, i, &sc.tre, &sc.tim);
-                let (r2, cos, sin) = point(cr, ci, *p, *q);
-                sum_r2 += w * r2;
-                sum_cos += w * cos;
-                sum_sin += w * sin;
+            for (i, w) in row.quad.iter().enumerate() {
+                let cr = self.boxcar_at::<G>(row, i, &sc.tre);
+                let ci = self.boxcar_at::<G>(row, i, &sc.tim);
+                let p: [f64; G] = std::array::from_fn(|l| xs[l].power[row.p_offset + i]);
+                let q: [f64; G] = std::array::from_fn(|l| ys[l].power[row.p_offset + i]);
+                for l in 0..G {
+                    let (r2, cos, sin) = point(cr[l], ci[l], p[l], q[l]);
+                    s_r2[l] += w * r2;
+                    s_cos[l] += w * cos;
+                    s_sin[l] += w * sin;
+                }
             }
         }
-        BandCoherence {
-            sum_r2,
+        std::array::from_fn(|l| BandCoherence {
+            sum_r2: s_r2[l],
             n_points: self.n_points,
-            sum_cos,
-            sum_sin,
+            sum_cos: s_cos[l],
+            sum_sin: s_sin[l],
+        })
+    }
+
+    /// Cross-spectra at the nodes and their time smoothing at every stage instant, for `G`
+    /// pairs interleaved (`value[index * G + lane]`) in `sc.tre` / `sc.tim`.
+    #[inline(always)]
+    fn smooth_all<const G: usize>(
+        &self,
+        xs: &[&MemberNodes; G],
+        ys: &[&MemberNodes; G],
+        sc: &mut CoarseScratch,
+    ) {
+        for st in self.stages.iter().filter(|s| s.n_nodes > 0) {
+            let o = st.offset..st.offset + st.n_nodes;
+            for l in 0..G {
+                let (xr, xi) = (&xs[l].re[o.clone()], &xs[l].im[o.clone()]);
+                let (yr, yi) = (&ys[l].re[o.clone()], &ys[l].im[o.clone()]);
+                for j in 0..st.n_nodes {
+                    sc.pre[j * G + l] = xr[j] * yr[j] + xi[j] * yi[j];
+                    sc.pim[j * G + l] = xi[j] * yr[j] - xr[j] * yi[j];
+                }
+            }
+            let taps = st.taps;
+            for (i, (&start, w)) in st
+                .starts
+                .iter()
+                .zip(st.weights.chunks_exact(taps))
+                .enumerate()
+            {
+                let (mut ar, mut ai) = ([0.0f64; G], [0.0f64; G]);
+                let pr = &sc.pre[start * G..(start + taps) * G];
+                let pi = &sc.pim[start * G..(start + taps) * G];
+                for ((wk, r), m) in w.iter().zip(pr.chunks_exact(G)).zip(pi.chunks_exact(G)) {
+                    for l in 0..G {
+                        ar[l] += wk * r[l];
+                        ai[l] += wk * m[l];
+                    }
+                }
+                let t = (st.t_offset + i) * G;
+                sc.tre[t..t + G].copy_from_slice(&ar);
+                sc.tim[t..t + G].copy_from_slice(&ai);
+            }
         }
     }
 
-    /// [`Self::boxcar_at`] of the real and imaginary parts in one pass.
+    /// `Σ_k b_k · T_{r+k}(τ_i)` for one row instant and each of `G` lanes.
     #[inline(always)]
-    fn boxcar_pair_at(&self, row: &Row, i: usize, tre: &[f64], tim: &[f64]) -> (f64, f64) {
-        let (mut re, mut im) = (0.0, 0.0);
+    fn boxcar_at<const G: usize>(&self, row: &Row, i: usize, t: &[f64]) -> [f64; G] {
+        let mut acc = [0.0f64; G];
         for (b, feed) in self.boxcar.iter().zip(&row.feeds) {
-            let k = feed[i] as usize;
-            re += b * tre[k];
-            im += b * tim[k];
-        }
-        (re, im)
-    }
-
-    /// `Σ_k b_k · T_{r+k}(τ_i)` for one row instant, from the stage instants `t`.
-    #[inline(always)]
-    fn boxcar_at(&self, row: &Row, i: usize, t: &[f64]) -> f64 {
-        let mut acc = 0.0;
-        for (b, feed) in self.boxcar.iter().zip(&row.feeds) {
-            acc += b * t[feed[i] as usize];
+            let k = feed[i] as usize * G;
+            let v = &t[k..k + G];
+            for l in 0..G {
+                acc[l] += b * v[l];
+            }
         }
         acc
     }
 }
 
-/// `W_x·conj(W_y)` at the nodes, split into real and imaginary parts.
-#[inline(always)]
-fn products(xr: &[f64], xi: &[f64], yr: &[f64], yi: &[f64], pre: &mut [f64], pim: &mut [f64]) {
-    let n = xr.len();
-    let (pre, pim) = (&mut pre[..n], &mut pim[..n]);
-    let (xi, yr, yi) = (&xi[..n], &yr[..n], &yi[..n]);
-    for j in 0..n {
-        pre[j] = xr[j] * yr[j] + xi[j] * yi[j];
-        pim[j] = xi[j] * yr[j] - xr[j] * yi[j];
-    }
-}
-
-/// Time smoothing of one stage at its instants: one weighted sum of `taps` nodes each.
-#[inline(always)]
-fn smooth_stage(st: &Stage, pre: &[f64], pim: &[f64], tre: &mut [f64], tim: &mut [f64]) {
-    let taps = st.taps;
-    for (i, (&start, w)) in st
-        .starts
-        .iter()
-        .zip(st.weights.chunks_exact(taps))
-        .enumerate()
-    {
-        let (a, b) = (&pre[start..start + taps], &pim[start..start + taps]);
-        let (re, im) = dot2(w, a, b);
-        tre[st.t_offset + i] = re;
-        tim[st.t_offset + i] = im;
-    }
-}
-
-/// `(Σ w·a, Σ w·b)` with four interleaved partial sums in a fixed order (vectorisable and
-/// independent of threads).
-#[inline(always)]
-fn dot2(w: &[f64], a: &[f64], b: &[f64]) -> (f64, f64) {
-    let mut sa = [0.0; LANES];
-    let mut sb = [0.0; LANES];
-    let whole = w.len() / LANES * LANES;
-    for ((wc, ac), bc) in w[..whole]
-        .chunks_exact(LANES)
-        .zip(a[..whole].chunks_exact(LANES))
-        .zip(b[..whole].chunks_exact(LANES))
-    {
-        for l in 0..LANES {
-            sa[l] += wc[l] * ac[l];
-            sb[l] += wc[l] * bc[l];
-        }
-    }
-    for l in 0..w.len() - whole {
-        sa[l] += w[whole + l] * a[whole + l];
-        sb[l] += w[whole + l] * b[whole + l];
-    }
-    (
-        (sa[0] + sa[1]) + (sa[2] + sa[3]),
-        (sb[0] + sb[1]) + (sb[2] + sb[3]),
-    )
-}
-
 /// One instant's `R²` and unit phasor. Zero cross-spectrum gives `R² = 0` and no phase, or
-/// NaN when a member has zero power (a flat signal), as on the full grid.
+/// NaN when a member has zero power (a flat signal), as on the full grid. Written without
+/// branches so that lanes of several pairs run as one vector.
 #[inline(always)]
 fn point(cr: f64, ci: f64, p: f64, q: f64) -> (f64, f64, f64) {
     let mag2 = cr * cr + ci * ci;
-    let pq = p * q;
-    if mag2 > 0.0 {
-        let mag = mag2.sqrt();
-        (mag2 / pq, cr / mag, ci / mag)
-    } else {
-        (0.0 / pq, 0.0, 0.0)
-    }
+    let inv = if mag2 > 0.0 { 1.0 / mag2.sqrt() } else { 0.0 };
+    (mag2 / (p * q), cr * inv, ci * inv)
 }
