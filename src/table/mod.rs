@@ -6,6 +6,8 @@
 //! Reading keeps text as text: the loader parses numbers itself so that a bad cell can be
 //! reported with its file, row and column instead of a generic parser message.
 
+mod plain;
+
 use std::fs::File;
 use std::path::{Path, PathBuf};
 
@@ -244,7 +246,8 @@ pub fn read_table(path: &Path) -> Result<RawTable, TableError> {
 
 /// As [`read_table`], for tables of numbers (recordings): a text column whose every non-empty
 /// cell parses as a number comes back as numbers, without one string per cell; any other
-/// column stays text, so the caller can still name the offending cell.
+/// column stays text, so the caller can still name the offending cell. A text file of numbers
+/// only takes the one-pass path of [`plain`], which holds little more than the numbers.
 pub fn read_numeric_table(path: &Path) -> Result<RawTable, TableError> {
     read_with(path, true)
 }
@@ -262,6 +265,17 @@ fn read_with(path: &Path, numeric: bool) -> Result<RawTable, TableError> {
         path: path.to_path_buf(),
         message,
     };
+    if numeric && format != Format::Parquet {
+        let text = std::fs::read_to_string(path).map_err(|e| read_err(e.to_string()))?;
+        let sep = if format == Format::Tsv { '\t' } else { ',' };
+        if let Some(t) = plain::parse(&text, sep) {
+            return Ok(RawTable {
+                path: path.to_path_buf(),
+                headers: t.headers,
+                columns: t.columns.into_iter().map(RawColumn::Number).collect(),
+            });
+        }
+    }
     let df = match format {
         Format::Tsv | Format::Csv => {
             let sep = if format == Format::Tsv { b'\t' } else { b',' };
