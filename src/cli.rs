@@ -52,9 +52,18 @@ pub struct DemoArgs {
     /// Sampling rate of the recordings (Hz)
     #[arg(long, default_value_t = 4.0)]
     pub sampling_hz: f64,
+    /// Regions of interest, the first N of prefrontal, temporoparietal, occipital, central (1-4)
+    #[arg(long, value_name = "N", default_value_t = 3)]
+    pub rois: usize,
     /// Channels in each region of interest
     #[arg(long, default_value_t = 2)]
     pub channels_per_roi: usize,
+    /// Length of every block (whole seconds, 10-600); the recordings grow to fit the schedule
+    #[arg(long, value_name = "SECONDS", default_value_t = 30.0)]
+    pub block_s: f64,
+    /// Blocks of each condition (joint, parallel, rest) per dyad (1-20)
+    #[arg(long, value_name = "K", default_value_t = 3)]
+    pub blocks_per_condition: usize,
     /// Roles (grandparent-grandchild) or peers (adult strangers)
     #[arg(long, value_enum, default_value_t = ModeArg::Roles)]
     pub mode: ModeArg,

@@ -215,3 +215,140 @@ fn the_demo_analysis_recovers_the_ground_truth() {
     );
     crate::browser::demo_report_page(&out.join("report.html"));
 }
+
+/// Writes a demo with extra options into a fresh folder and loads it with the library.
+fn generated(extra: &[&str]) -> (tempfile::TempDir, PathBuf, nevermet::study::Study) {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("study");
+    let mut args = vec!["demo", "--out", out.to_str().unwrap()];
+    args.extend_from_slice(extra);
+    let o = nevermet(&args);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let study = nevermet::study::load(&out.join("study.toml"))
+        .unwrap_or_else(|e| panic!("the generated study must load: {e}"));
+    (dir, out, study)
+}
+
+#[test]
+fn a_four_region_study_with_minute_blocks_loads_as_designed() {
+    let (_dir, out, study) = generated(&[
+        "--dyads",
+        "8",
+        "--rois",
+        "4",
+        "--channels-per-roi",
+        "4",
+        "--sampling-hz",
+        "10",
+        "--block-s",
+        "60",
+        "--blocks-per-condition",
+        "2",
+    ]);
+    assert!(study.warnings.is_empty(), "{:?}", study.warnings);
+    assert_eq!(study.dyads.len(), 8);
+    assert_eq!(study.members.len(), 16);
+    assert_eq!(
+        study.rois,
+        ["prefrontal", "temporoparietal", "occipital", "central"]
+    );
+    assert_eq!(study.channels.len(), 16);
+    for roi in &study.rois {
+        assert_eq!(study.channels.iter().filter(|c| &c.roi == roi).count(), 4);
+    }
+    assert!((study.dt - 0.1).abs() < 1e-12, "dt {}", study.dt);
+    // Recording length by hand: 100 s before the first block, 6 blocks of 60 s, 5 pauses of
+    // 40 s and 110 s after the last block: 770 s, 7700 samples at 10 Hz.
+    for r in &study.recordings {
+        assert_eq!(r.n, 7700, "{}", r.path.display());
+        assert_eq!(r.signals.len(), 16 * 2, "HbO and HbR of every channel");
+    }
+    assert_eq!(study.events.len(), 8 * 3 * 2);
+    assert!(study.events.iter().all(|e| e.duration == 60.0));
+    let names: Vec<&str> = study.conditions.iter().map(|c| c.name.as_str()).collect();
+    assert_eq!(names, ["joint", "parallel", "rest"]);
+    for c in &study.conditions {
+        assert_eq!(c.blocks.len(), 2, "{}", c.name);
+        for b in &c.blocks {
+            assert_eq!(b.length, 600, "60 s at 10 Hz");
+            assert_eq!(
+                b.context, 900,
+                "the full 90 s of context fits on both sides"
+            );
+        }
+    }
+    // The fourth region carries no effect: the truth lists 3 conditions × 4 regions × 2
+    // chromophores, with the effect in joint blocks of the first two regions only.
+    let truth: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("truth.json")).unwrap()).unwrap();
+    let cells = truth["cells"].as_array().unwrap();
+    assert_eq!(cells.len(), 24);
+    let central: Vec<&serde_json::Value> = cells.iter().filter(|c| c["roi"] == "central").collect();
+    assert_eq!(central.len(), 6);
+    assert!(central.iter().all(|c| c["effect"] == false));
+    assert_eq!(truth["effect_cells"].as_array().unwrap().len(), 4);
+}
+
+#[test]
+fn a_study_of_more_than_98_dyads_has_three_digit_ids_and_keeps_its_structure() {
+    let (_dir, out, study) = generated(&[
+        "--dyads",
+        "100",
+        "--rois",
+        "4",
+        "--channels-per-roi",
+        "1",
+        "--sampling-hz",
+        "1",
+        "--block-s",
+        "60",
+        "--blocks-per-condition",
+        "2",
+    ]);
+    assert_eq!(study.dyads.len(), 100);
+    assert_eq!(study.members.len(), 200);
+    let ids: Vec<&str> = study.dyads.iter().map(|d| d.id.as_str()).collect();
+    let want: Vec<String> = (1..=100).map(|i| format!("t{i:03}")).collect();
+    assert_eq!(ids, want);
+    assert!(study.members.iter().all(|m| m.participant.len() == 5));
+    for r in &study.recordings {
+        assert_eq!(r.n, 770, "770 s at 1 Hz");
+    }
+    for c in &study.conditions {
+        assert_eq!(c.blocks.len(), 2);
+        assert!(c.blocks.iter().all(|b| b.length == 60));
+    }
+    let plan_dir = out.join("plan");
+    let o = nevermet(&[
+        "plan",
+        out.join("study.toml").to_str().unwrap(),
+        "--out",
+        plan_dir.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let plan: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(plan_dir.join("plan.json")).unwrap())
+            .unwrap();
+    // Hand count, as for the committed demo but with 50 dyads per site: 100 × 100 = 10 000
+    // candidates, 100 real, 2 × 50 × 50 = 5000 across sites, the two family cells of t001/t002
+    // (also ever-partners through g1001) and the two of the twins' family at t051/t052:
+    // 2 × (50 × 50 − 50 − 2) = 4896 admissible.
+    assert_eq!(plan["candidates"], 10_000);
+    assert_eq!(plan["real"], 100);
+    assert_eq!(plan["excluded_by_rule"]["pair_within:site"], 5000);
+    assert_eq!(plan["excluded_by_rule"]["keep_apart:family"], 4);
+    assert_eq!(plan["excluded_by_rule"]["ever-partners"], 2);
+    assert_eq!(plan["admissible_pairs"], 4896);
+    let pairs = std::fs::read_to_string(plan_dir.join("pairs.tsv")).unwrap();
+    assert!(
+        pairs.contains(
+            "t001:g1001\tt002:c2002\tt001\tt002\texcluded\tever-partners;keep_apart:family"
+        ),
+        "{}",
+        &pairs[..pairs.len().min(2000)]
+    );
+    assert!(
+        pairs.contains("t051:g1051\tt052:c2052\tt051\tt052\texcluded\tkeep_apart:family"),
+        "the twins' family at the second site"
+    );
+}

@@ -19,23 +19,36 @@ mod write;
 
 /// Smallest and largest study the demo builds. Each site needs at least four dyads: with three,
 /// the two-dyad family at a site leaves no complete re-pairing that keeps families apart. The
-/// upper bound keeps every id two digits wide.
+/// upper bound keeps every id at most three digits wide (ids grow from two digits to three only
+/// above 99 dyads).
 const MIN_DYADS: usize = 8;
-const MAX_DYADS: usize = 98;
+const MAX_DYADS: usize = 998;
 const MIN_SAMPLING_HZ: f64 = 1.0;
 const MAX_SAMPLING_HZ: f64 = 50.0;
+/// Blocks shorter than 10 s would be mostly the 3 s fades of the coupling at their edges.
+const MIN_BLOCK_S: f64 = 10.0;
+const MAX_BLOCK_S: f64 = 600.0;
+const MAX_BLOCKS_PER_CONDITION: usize = 20;
 
 /// Settings of the generated study; the defaults give the documented demo folder.
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct DemoOptions {
-    /// Number of real dyads, split evenly over the two sites.
+    /// Number of real dyads, half at each of the two sites (the first takes the odd one).
     pub dyads: usize,
     /// Seed of every random draw, also written as the inference seed of the study.
     pub seed: u64,
     /// Sampling rate of the recordings.
     pub sampling_hz: f64,
-    /// Channels in each of the three regions of interest.
+    /// Regions of interest, the first this many of prefrontal, temporoparietal, occipital and
+    /// central (1 to 4); real pairs are coupled in the first two only.
+    pub rois: usize,
+    /// Channels in each region of interest.
     pub channels_per_roi: usize,
+    /// Length of every block in seconds; a whole number, so that onsets stay on samples.
+    pub block_s: f64,
+    /// Blocks of each of the three conditions in every dyad's schedule. The recordings grow
+    /// with the schedule so the analysis context always fits after the last block.
+    pub blocks_per_condition: usize,
     /// Which kind of study: grandparent–grandchild roles or adult strangers.
     pub mode: DemoMode,
     /// Strength of the real-pair coupling as a multiple of the demo's built-in amplitude; 0
@@ -49,7 +62,10 @@ impl Default for DemoOptions {
             dyads: 12,
             seed: 20261201,
             sampling_hz: 4.0,
+            rois: 3,
             channels_per_roi: 2,
+            block_s: 30.0,
+            blocks_per_condition: 3,
             mode: DemoMode::Roles,
             coupling: 1.0,
         }
@@ -90,10 +106,10 @@ pub fn write_demo(opts: &DemoOptions, out: &Path) -> anyhow::Result<DemoSummary>
 }
 
 fn validate(opts: &DemoOptions) -> anyhow::Result<()> {
-    if opts.dyads < MIN_DYADS || opts.dyads > MAX_DYADS || !opts.dyads.is_multiple_of(2) {
+    if opts.dyads < MIN_DYADS || opts.dyads > MAX_DYADS {
         bail!(
-            "demo dyads must be an even number from {MIN_DYADS} to {MAX_DYADS} (got {}): the \
-             dyads are split evenly over two sites and each site needs at least 4",
+            "demo dyads must be from {MIN_DYADS} to {MAX_DYADS} (got {}): the dyads are split \
+             over two sites and each site needs at least 4",
             opts.dyads
         );
     }
@@ -107,6 +123,28 @@ fn validate(opts: &DemoOptions) -> anyhow::Result<()> {
         bail!(
             "demo coupling must be between 0 and 10 (got {})",
             opts.coupling
+        );
+    }
+    let regions = scenario::ROIS.len();
+    if opts.rois == 0 || opts.rois > regions {
+        bail!(
+            "demo regions must be from 1 to {regions} (got {}): the demo has the regions {}, \
+             taken in that order",
+            opts.rois,
+            scenario::ROIS.map(|r| r.name).join(", ")
+        );
+    }
+    if !(MIN_BLOCK_S..=MAX_BLOCK_S).contains(&opts.block_s) || opts.block_s.fract() != 0.0 {
+        bail!(
+            "demo block length must be a whole number of seconds from {MIN_BLOCK_S} to \
+             {MAX_BLOCK_S} (got {}), so that every onset falls on a sample",
+            opts.block_s
+        );
+    }
+    if opts.blocks_per_condition == 0 || opts.blocks_per_condition > MAX_BLOCKS_PER_CONDITION {
+        bail!(
+            "demo blocks per condition must be from 1 to {MAX_BLOCKS_PER_CONDITION} (got {})",
+            opts.blocks_per_condition
         );
     }
     if opts.channels_per_roi == 0 {
@@ -188,14 +226,14 @@ mod tests {
                     dyads: 6,
                     ..Default::default()
                 },
-                "even number from 8",
+                "from 8 to 998 (got 6)",
             ),
             (
                 DemoOptions {
-                    dyads: 13,
+                    dyads: 7,
                     ..Default::default()
                 },
-                "even number from 8",
+                "from 8 to 998 (got 7)",
             ),
             (
                 DemoOptions {
@@ -217,6 +255,62 @@ mod tests {
                     ..Default::default()
                 },
                 "at least 1",
+            ),
+            (
+                DemoOptions {
+                    dyads: 1000,
+                    ..Default::default()
+                },
+                "from 8 to 998 (got 1000)",
+            ),
+            (
+                DemoOptions {
+                    rois: 0,
+                    ..Default::default()
+                },
+                "regions must be from 1 to 4 (got 0)",
+            ),
+            (
+                DemoOptions {
+                    rois: 5,
+                    ..Default::default()
+                },
+                "prefrontal, temporoparietal, occipital, central",
+            ),
+            (
+                DemoOptions {
+                    block_s: 45.5,
+                    ..Default::default()
+                },
+                "whole number of seconds from 10 to 600 (got 45.5)",
+            ),
+            (
+                DemoOptions {
+                    block_s: 5.0,
+                    ..Default::default()
+                },
+                "from 10 to 600",
+            ),
+            (
+                DemoOptions {
+                    block_s: f64::INFINITY,
+                    ..Default::default()
+                },
+                "from 10 to 600",
+            ),
+            (
+                DemoOptions {
+                    blocks_per_condition: 0,
+                    ..Default::default()
+                },
+                "blocks per condition must be from 1 to 20 (got 0)",
+            ),
+            (
+                DemoOptions {
+                    blocks_per_condition: 21,
+                    ..Default::default()
+                },
+                "from 1 to 20",
             ),
         ];
         for (i, (opts, needle)) in cases.iter().enumerate() {

@@ -1,10 +1,15 @@
 //! Who is in the demo study and what they did: dyads, members, families or households, sites,
-//! channels, the block design of every dyad, and the two deliberately faulty channels.
+//! regions and channels, the block design of every dyad and the recording length it needs, and
+//! the two deliberately faulty channels.
 //!
 //! Owns the invented ids and the structure that exercises the pairing rules. It draws only the
 //! event timings at random and must not synthesise signals or touch the file system.
 //!
-//! Roles mode (grandparent–grandchild dyads `t01`, `t02`, …, half at each site):
+//! Ids carry two digits (`t01`, `g101`, …) up to 99 dyads and three (`t001`, `g1001`, …) in a
+//! larger study, so every id of one study has the same width and sorts in dyad order.
+//!
+//! Roles mode (grandparent–grandchild dyads `t01`, `t02`, …, half at each site, the first site
+//! taking the odd one of an odd count):
 //! - grandparent `g1NN` and child `c2NN` in dyad `tNN`, each in family `fNN`;
 //! - at the first site, grandparent `g101` is in `t01` and `t02`, with the siblings `c201` and
 //!   `c202`, all of family `f01`;
@@ -28,7 +33,10 @@ pub struct Roi {
     pub coupled: bool,
 }
 
-pub const ROIS: [Roi; 3] = [
+/// The regions a demo can have, taken in this order: a study with `rois = n` has the first n.
+/// The default three carry one null region (occipital); the fourth, central, is a second null
+/// region, so a four-region study has two regions with a real effect and two without.
+pub const ROIS: [Roi; 4] = [
     Roi {
         name: "prefrontal",
         prefix: "pf",
@@ -42,6 +50,11 @@ pub const ROIS: [Roi; 3] = [
     Roi {
         name: "occipital",
         prefix: "oc",
+        coupled: false,
+    },
+    Roi {
+        name: "central",
+        prefix: "ce",
         coupled: false,
     },
 ];
@@ -73,15 +86,27 @@ pub const CONDITIONS: [Condition; 3] = [
 
 pub const SITES: [&str; 2] = ["harbour", "hillside"];
 
-/// Block design: onsets every BLOCK_S + PAUSE_S seconds from FIRST_ONSET_S, which leaves
-/// more than the 90 s of analysis context before the first block and after the last. The
-/// pause is long enough that the coherence smoothing of one block reaches little into the
+/// Block design: onsets every block length + PAUSE_S seconds from FIRST_ONSET_S, which leaves
+/// more than the 90 s of analysis context before the first block, whatever the dyad's shift.
+/// The pause is long enough that the coherence smoothing of one block reaches little into the
 /// next.
 pub const FIRST_ONSET_S: f64 = 100.0;
-pub const BLOCK_S: f64 = 30.0;
 pub const PAUSE_S: f64 = 40.0;
-pub const BLOCKS_PER_CONDITION: usize = 3;
-pub const RECORDING_S: f64 = 800.0;
+/// Recording after the planned end of the last block: the 90 s of analysis context, the
+/// largest schedule shift, and time for the block-locked response to die away.
+pub const TAIL_S: f64 = 110.0;
+/// Seconds of recording a schedule needs: first onset, every block with the pauses between
+/// them, and the tail. The default design (3 conditions × 3 blocks of 30 s) gives 800 s.
+pub fn recording_s(block_s: f64, blocks_per_condition: usize) -> f64 {
+    let blocks = (CONDITIONS.len() * blocks_per_condition) as f64;
+    FIRST_ONSET_S + blocks * block_s + (blocks - 1.0) * PAUSE_S + TAIL_S
+}
+
+/// Digits of the numbers in every id: two up to 99 dyads, more only when the study needs them.
+pub fn id_width(dyads: usize) -> usize {
+    dyads.to_string().len().max(2)
+}
+
 /// Largest shift of a dyad's whole schedule against its recording start, in whole seconds so
 /// that every onset falls on a sample for any integer sampling rate.
 const DYAD_SHIFT_S: i64 = 2;
@@ -119,6 +144,8 @@ pub struct Scenario {
     pub seed: u64,
     pub sampling_hz: f64,
     pub samples: usize,
+    /// How many of [`ROIS`] the study has (the first ones).
+    pub roi_count: usize,
     pub dyads: Vec<Dyad>,
     pub members: Vec<Member>,
     pub channels: Vec<Channel>,
@@ -132,14 +159,17 @@ pub struct Scenario {
 
 impl Scenario {
     pub fn build(opts: &DemoOptions) -> Scenario {
-        let per_site = opts.dyads / 2;
+        // The first site takes the odd dyad of an odd count.
+        let second_site_first = opts.dyads.div_ceil(2);
+        let width = id_width(opts.dyads);
         let mut dyads = Vec::with_capacity(opts.dyads);
         let mut members = Vec::with_capacity(2 * opts.dyads);
         for index in 0..opts.dyads {
-            let site = index / per_site;
+            let site = usize::from(index >= second_site_first);
+            let site_first = site * second_site_first;
             let pair = match opts.mode {
-                DemoMode::Roles => roles_pair(index, site, per_site),
-                DemoMode::Peers => peers_pair(index, site, per_site),
+                DemoMode::Roles => roles_pair(index, site, site_first, width),
+                DemoMode::Peers => peers_pair(index, site, site_first, width),
             };
             let first = members.len();
             for mut member in pair {
@@ -151,13 +181,13 @@ impl Scenario {
                 DemoMode::Peers => "s",
             };
             dyads.push(Dyad {
-                id: format!("{prefix}{:02}", index + 1),
+                id: format!("{prefix}{:0width$}", index + 1),
                 site,
                 members: [first, first + 1],
-                blocks: schedule(opts.seed, index),
+                blocks: schedule(opts, index),
             });
         }
-        let channels = ROIS
+        let channels = ROIS[..opts.rois]
             .iter()
             .enumerate()
             .flat_map(|(roi, r)| {
@@ -168,20 +198,32 @@ impl Scenario {
             })
             .collect();
         let cpr = opts.channels_per_roi;
+        let recording = recording_s(opts.block_s, opts.blocks_per_condition);
         Scenario {
             mode: opts.mode,
             seed: opts.seed,
             sampling_hz: opts.sampling_hz,
-            samples: (RECORDING_S * opts.sampling_hz).round() as usize,
-            // First member of the fourth dyad at the second site, first temporoparietal channel.
-            empty_channel: (dyads[per_site + 3].members[0], cpr),
-            // Second member of the fourth dyad at the first site, last occipital channel.
-            flagged_channel: (dyads[3].members[1], 3 * cpr - 1),
+            samples: (recording * opts.sampling_hz).round() as usize,
+            roi_count: opts.rois,
+            // First member of the fourth dyad at the second site, first temporoparietal channel
+            // (first channel of the only region in a one-region study).
+            empty_channel: (
+                dyads[second_site_first + 3].members[0],
+                cpr * opts.rois.min(2).saturating_sub(1),
+            ),
+            // Second member of the fourth dyad at the first site, last occipital channel (last
+            // channel of the last region in a study with fewer than three).
+            flagged_channel: (dyads[3].members[1], opts.rois.min(3) * cpr - 1),
             coupling_amplitude: super::signals::COUPLING_AMPLITUDE * opts.coupling,
             dyads,
             members,
             channels,
         }
+    }
+
+    /// The regions of this study, in channel order.
+    pub fn rois(&self) -> &'static [Roi] {
+        &ROIS[..self.roi_count]
     }
 
     pub fn site_of(&self, member: usize) -> usize {
@@ -219,23 +261,22 @@ fn member(role: &'static str, participant: String, group: String) -> Member {
 
 /// Grandparent and child of dyad `index`; the first two dyads of each site carry the
 /// multi-dyad families.
-fn roles_pair(index: usize, site: usize, per_site: usize) -> [Member; 2] {
+fn roles_pair(index: usize, site: usize, site_first: usize, width: usize) -> [Member; 2] {
     let num = index + 1;
-    let site_first = site * per_site;
     let in_site_family = index < site_first + 2;
     let family = if in_site_family {
-        format!("f{:02}", site_first + 1)
+        format!("f{:0width$}", site_first + 1)
     } else {
-        format!("f{num:02}")
+        format!("f{num:0width$}")
     };
     let grandparent_num = if site == 0 && index == 1 { 1 } else { num };
     let mut grandparent = member(
         "grandparent",
-        format!("g1{grandparent_num:02}"),
+        format!("g1{grandparent_num:0width$}"),
         family.clone(),
     );
     grandparent.age_group = "older";
-    let mut child = member("child", format!("c2{num:02}"), family);
+    let mut child = member("child", format!("c2{num:0width$}"), family);
     child.age_group = "younger";
     if site == 1 && in_site_family {
         child.twin_group = Some("tw1".to_string());
@@ -244,38 +285,42 @@ fn roles_pair(index: usize, site: usize, per_site: usize) -> [Member; 2] {
 }
 
 /// Two adult strangers of dyad `index`.
-fn peers_pair(index: usize, site: usize, per_site: usize) -> [Member; 2] {
+fn peers_pair(index: usize, site: usize, site_first: usize, width: usize) -> [Member; 2] {
     let num = index + 1;
-    let site_first = site * per_site;
     let first_num = if site == 0 && index == 1 { 1 } else { num };
     let first_household = if site == 1 && index < site_first + 2 {
-        format!("h1{:02}", site_first + 1)
+        format!("h1{:0width$}", site_first + 1)
     } else {
-        format!("h1{first_num:02}")
+        format!("h1{first_num:0width$}")
     };
-    let mut first = member("adult", format!("p1{first_num:02}"), first_household);
-    let mut second = member("adult", format!("p2{num:02}"), format!("h2{num:02}"));
+    let mut first = member("adult", format!("p1{first_num:0width$}"), first_household);
+    let mut second = member(
+        "adult",
+        format!("p2{num:0width$}"),
+        format!("h2{num:0width$}"),
+    );
     first.age_group = "adult";
     second.age_group = "adult";
     [first, second]
 }
 
-/// The nine blocks of one dyad, cycling joint, parallel, rest. Every dyad keeps the same
+/// The blocks of one dyad (three per condition by default), cycling joint, parallel, rest, all
+/// of the chosen length. Every dyad keeps the same
 /// order, block lengths and pauses, shifted as a whole against its recording start: a real
 /// pair shares its exact timing, so any timing difference between dyads would hand real pairs
 /// an advantage from the task-evoked response alone (block coherence reaches into the
 /// surrounding context), in every condition. The analysis aligns windows on each dyad's own
 /// onsets, so a whole-schedule shift costs nothing and still exercises that alignment.
-fn schedule(seed: u64, dyad: usize) -> Vec<Block> {
+fn schedule(opts: &DemoOptions, dyad: usize) -> Vec<Block> {
     const ORDER: [usize; 3] = [0, 1, 2];
-    let mut rng = stream(seed, Purpose::Events, dyad, 0);
+    let mut rng = stream(opts.seed, Purpose::Events, dyad, 0);
     let shift = rng.random_range(-DYAD_SHIFT_S..=DYAD_SHIFT_S) as f64;
-    let slot = BLOCK_S + PAUSE_S;
-    (0..3 * BLOCKS_PER_CONDITION)
+    let slot = opts.block_s + PAUSE_S;
+    (0..ORDER.len() * opts.blocks_per_condition)
         .map(|k| Block {
-            condition: ORDER[k % 3],
+            condition: ORDER[k % ORDER.len()],
             onset: round_to_hundredth(FIRST_ONSET_S + slot * k as f64 + shift),
-            duration: BLOCK_S,
+            duration: opts.block_s,
         })
         .collect()
 }
@@ -410,7 +455,7 @@ mod tests {
 
     #[test]
     fn the_smallest_study_still_admits_complete_repairings_at_each_site() {
-        for dyads in [8, 12] {
+        for dyads in [8, 9, 12] {
             let s = Scenario::build(&DemoOptions {
                 dyads,
                 ..Default::default()
@@ -450,53 +495,210 @@ mod tests {
         assert_ne!(dyads_of(&s, people[0]), dyads_of(&s, people[1]));
     }
 
+    /// Checks one dyad's schedule against the design it was asked for: the count per
+    /// condition, the cycle order, the block length, the pauses, and 90 s of recording on each
+    /// side of the blocks.
+    fn check_schedule(s: &Scenario, d: &Dyad, block_s: f64, per_condition: usize) {
+        let last_time = (s.samples - 1) as f64 / s.sampling_hz;
+        assert_eq!(d.blocks.len(), 3 * per_condition);
+        for c in 0..3 {
+            let n = d.blocks.iter().filter(|b| b.condition == c).count();
+            assert_eq!(n, per_condition);
+        }
+        let first = &d.blocks[0];
+        let last = d.blocks.last().unwrap();
+        assert!(first.onset >= 90.0, "{}: first onset {}", d.id, first.onset);
+        assert!(last_time - (last.onset + last.duration) >= 90.0, "{}", d.id);
+        for pair in d.blocks.windows(2) {
+            let pause = pair[1].onset - pair[0].onset - pair[0].duration;
+            // Within 10 % of the nominal pause, plus up to 0.015 s from rounding.
+            assert!(
+                (pause - PAUSE_S).abs() <= 0.1 * PAUSE_S + 0.02,
+                "{}: pause {pause}",
+                d.id
+            );
+        }
+        for (k, b) in d.blocks.iter().enumerate() {
+            assert_eq!(b.duration, block_s, "{}", d.id);
+            let planned = FIRST_ONSET_S + (block_s + PAUSE_S) * k as f64;
+            assert!(
+                (b.onset - planned).abs() <= 2.01,
+                "{}: onset {}",
+                d.id,
+                b.onset
+            );
+        }
+        let names: Vec<&str> = d
+            .blocks
+            .iter()
+            .map(|b| CONDITIONS[b.condition].name)
+            .collect();
+        for cycle in names.chunks(3) {
+            assert_eq!(cycle, ["joint", "parallel", "rest"], "{}", d.id);
+        }
+    }
+
     #[test]
     fn blocks_keep_the_design_and_the_context_around_it() {
         let s = roles();
-        let last_time = (s.samples - 1) as f64 / s.sampling_hz;
         for d in &s.dyads {
-            assert_eq!(d.blocks.len(), 9);
-            for c in 0..3 {
-                assert_eq!(d.blocks.iter().filter(|b| b.condition == c).count(), 3);
-            }
-            let first = &d.blocks[0];
-            let last = d.blocks.last().unwrap();
-            assert!(first.onset >= 90.0, "{}: first onset {}", d.id, first.onset);
-            assert!(last_time - (last.onset + last.duration) >= 90.0, "{}", d.id);
-            for pair in d.blocks.windows(2) {
-                let pause = pair[1].onset - pair[0].onset - pair[0].duration;
-                // Within 10 % of the nominal pause, plus up to 0.015 s from rounding.
-                assert!(
-                    (pause - PAUSE_S).abs() <= 0.1 * PAUSE_S + 0.02,
-                    "{}: pause {pause}",
-                    d.id
-                );
-            }
-            for (k, b) in d.blocks.iter().enumerate() {
-                assert!(
-                    (b.duration - BLOCK_S).abs() <= 0.51,
-                    "{}: {}",
-                    d.id,
-                    b.duration
-                );
-                let planned = FIRST_ONSET_S + (BLOCK_S + PAUSE_S) * k as f64;
-                assert!(
-                    (b.onset - planned).abs() <= 2.01,
-                    "{}: onset {}",
-                    d.id,
-                    b.onset
-                );
+            check_schedule(&s, d, 30.0, 3);
+        }
+        // Recording length by hand: 100 s to the first onset, 9 blocks of 30 s, 8 pauses of
+        // 40 s, 110 s of tail.
+        assert_eq!(s.samples, 800 * 4);
+    }
+
+    #[test]
+    fn longer_blocks_stretch_the_recordings_to_fit() {
+        for (block_s, per_condition, hz, seconds) in [
+            // 100 + 6 × 60 + 5 × 40 + 110 = 770 s
+            (60.0, 2, 10.0, 770),
+            // 100 + 15 × 120 + 14 × 40 + 110 = 2570 s
+            (120.0, 5, 1.0, 2570),
+            // 100 + 3 × 10 + 2 × 40 + 110 = 320 s
+            (10.0, 1, 2.0, 320),
+        ] {
+            let s = Scenario::build(&DemoOptions {
+                block_s,
+                blocks_per_condition: per_condition,
+                sampling_hz: hz,
+                ..Default::default()
+            });
+            assert_eq!(
+                s.samples,
+                seconds * hz as usize,
+                "{block_s} s × {per_condition}"
+            );
+            for d in &s.dyads {
+                check_schedule(&s, d, block_s, per_condition);
             }
         }
-        for d in &s.dyads {
-            let names: Vec<&str> = d
-                .blocks
-                .iter()
-                .map(|b| CONDITIONS[b.condition].name)
-                .collect();
-            assert_eq!(names[..3], ["joint", "parallel", "rest"], "{}", d.id);
-            assert_eq!(names[..3], names[3..6]);
-            assert_eq!(names[..3], names[6..]);
+    }
+
+    #[test]
+    fn four_regions_add_an_uncoupled_central_region() {
+        let s = Scenario::build(&DemoOptions {
+            rois: 4,
+            channels_per_roi: 4,
+            ..Default::default()
+        });
+        let names: Vec<&str> = s.channels.iter().map(|c| c.name.as_str()).collect();
+        assert_eq!(names.len(), 16);
+        assert_eq!(names[12..], ["ce1", "ce2", "ce3", "ce4"]);
+        let coupled: Vec<&str> = s
+            .rois()
+            .iter()
+            .filter(|r| r.coupled)
+            .map(|r| r.name)
+            .collect();
+        assert_eq!(coupled, ["prefrontal", "temporoparietal"]);
+        // The faulty channels stay where the three-region study has them.
+        assert_eq!(s.channels[s.empty_channel.1].name, "tp1");
+        assert_eq!(s.channels[s.flagged_channel.1].name, "oc4");
+    }
+
+    #[test]
+    fn fewer_regions_keep_both_faulty_channels_inside_the_study() {
+        for (rois, cpr, empty, flagged) in [
+            (1, 1, "pf1", "pf1"),
+            (1, 3, "pf1", "pf3"),
+            (2, 2, "tp1", "tp2"),
+        ] {
+            let s = Scenario::build(&DemoOptions {
+                rois,
+                channels_per_roi: cpr,
+                ..Default::default()
+            });
+            assert_eq!(s.channels.len(), rois * cpr);
+            assert_eq!(s.channels[s.empty_channel.1].name, empty);
+            assert_eq!(s.channels[s.flagged_channel.1].name, flagged);
+            assert_ne!(
+                s.empty_channel.0, s.flagged_channel.0,
+                "two different members"
+            );
         }
+    }
+
+    #[test]
+    fn an_odd_count_gives_the_first_site_one_dyad_more() {
+        let s = Scenario::build(&DemoOptions {
+            dyads: 35,
+            ..Default::default()
+        });
+        let site_of = |id: &str| s.dyads.iter().find(|d| d.id == id).unwrap().site;
+        assert_eq!(s.dyads.iter().filter(|d| d.site == 0).count(), 18);
+        assert_eq!(s.dyads.iter().filter(|d| d.site == 1).count(), 17);
+        assert_eq!((site_of("t18"), site_of("t19")), (0, 1));
+        // The second site's twins open it, in the family named after its first dyad.
+        assert_eq!(twins(&s), [("t19", "f19"), ("t20", "f19")]);
+        let empty = &s.members[s.empty_channel.0];
+        assert_eq!(
+            s.dyads[empty.dyad].id, "t22",
+            "fourth dyad of the second site"
+        );
+        assert_eq!(dyads_of(&s, "g101"), vec!["t01", "t02"]);
+    }
+
+    /// (dyad, family) of every twin, in member order.
+    fn twins(s: &Scenario) -> Vec<(&str, &str)> {
+        s.members
+            .iter()
+            .filter(|m| m.twin_group.is_some())
+            .map(|m| (s.dyads[m.dyad].id.as_str(), m.group.as_str()))
+            .collect()
+    }
+
+    #[test]
+    fn ids_grow_to_three_digits_only_above_ninety_nine_dyads() {
+        assert_eq!(id_width(8), 2);
+        assert_eq!(id_width(98), 2);
+        assert_eq!(id_width(100), 3);
+        assert_eq!(id_width(998), 3);
+        let narrow = Scenario::build(&DemoOptions {
+            dyads: 98,
+            ..Default::default()
+        });
+        assert_eq!(narrow.dyads[97].id, "t98");
+        let s = Scenario::build(&DemoOptions {
+            dyads: 140,
+            ..Default::default()
+        });
+        let ids: Vec<&str> = s.dyads.iter().map(|d| d.id.as_str()).collect();
+        assert_eq!(ids[..2], ["t001", "t002"]);
+        assert_eq!(ids[139], "t140");
+        let mut sorted = ids.clone();
+        sorted.sort();
+        assert_eq!(sorted, ids, "ids sort in dyad order");
+        assert_eq!(dyads_of(&s, "g1001"), vec!["t001", "t002"]);
+        // Every id of one kind has one width: dyads t + 3, participants g1/c2 + 3, families f + 3.
+        assert!(s.dyads.iter().all(|d| d.id.len() == 4));
+        assert!(s.members.iter().all(|m| m.participant.len() == 5));
+        assert!(s.members.iter().all(|m| m.group.len() == 4));
+        // The family structure of the small study carries over: the second site starts at
+        // t071, whose family f071 holds the twins of t071 and t072.
+        assert_eq!(twins(&s), [("t071", "f071"), ("t072", "f071")]);
+        let families: BTreeSet<&str> = s.members.iter().map(|m| m.group.as_str()).collect();
+        assert_eq!(
+            families.len(),
+            140 - 2,
+            "two two-dyad families, the rest single"
+        );
+        for site in 0..2 {
+            assert_eq!(s.dyads.iter().filter(|d| d.site == site).count(), 70);
+        }
+        let peers = Scenario::build(&DemoOptions {
+            dyads: 140,
+            mode: DemoMode::Peers,
+            ..Default::default()
+        });
+        assert_eq!(dyads_of(&peers, "p1001"), vec!["s001", "s002"]);
+        let shared: Vec<&str> = peers
+            .members
+            .iter()
+            .filter(|m| m.group == "h1071")
+            .map(|m| m.participant.as_str())
+            .collect();
+        assert_eq!(shared, ["p1071", "p1072"]);
     }
 }

@@ -20,7 +20,7 @@
 use std::f64::consts::{PI, TAU};
 
 use crate::demo::hrf;
-use crate::demo::scenario::{CONDITIONS, ROIS, Scenario};
+use crate::demo::scenario::{CONDITIONS, Scenario};
 use crate::demo::{Purpose, normal, stream, uniform};
 
 /// Stationary standard deviation of the background noise.
@@ -84,10 +84,12 @@ pub fn synthesise(study: &Scenario, member: usize) -> Recording {
         -MAX_MEMBER_LAG_S,
         MAX_MEMBER_LAG_S,
     );
-    let shared: Vec<Option<Vec<f64>>> = (0..ROIS.len())
-        .map(|roi| {
-            ROIS[roi]
-                .coupled
+    let shared: Vec<Option<Vec<f64>>> = study
+        .rois()
+        .iter()
+        .enumerate()
+        .map(|(roi, r)| {
+            r.coupled
                 .then(|| shared_component(study.seed, dyad, roi).sample(&times, lag))
         })
         .collect();
@@ -380,7 +382,7 @@ mod tests {
         let joint = 0;
         let parallel = 1;
         let mut report = String::new();
-        for (roi, r) in ROIS.iter().enumerate() {
+        for (roi, r) in study.rois().iter().enumerate() {
             for condition in [joint, parallel] {
                 let re = mean_correlation(study, &filtered, &real, roi, condition);
                 let ps = mean_correlation(study, &filtered, &pseudo, roi, condition);

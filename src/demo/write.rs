@@ -8,7 +8,7 @@ use std::path::{Path, PathBuf};
 use anyhow::Context;
 use serde::Serialize;
 
-use crate::demo::scenario::{CONDITIONS, ROIS, SITES, Scenario};
+use crate::demo::scenario::{CONDITIONS, SITES, Scenario};
 use crate::demo::signals::{self, HBR_COUPLING_RATIO, HBR_EVOKED_RATIO};
 use crate::demo::{DemoMode, DemoOptions};
 use crate::table::{Table, WriteOptions, write_table, write_table_with};
@@ -116,7 +116,7 @@ fn channels_table(study: &Scenario) -> Table {
             study
                 .channels
                 .iter()
-                .map(|c| ROIS[c.roi].name.to_string())
+                .map(|c| study.rois()[c.roi].name.to_string())
                 .collect(),
         )
 }
@@ -324,13 +324,14 @@ const NOTES: [&str; 3] = [
 ];
 
 fn truth(study: &Scenario) -> Truth {
+    let rois = study.rois();
     let coupled_rois: Vec<&'static str> =
-        ROIS.iter().filter(|r| r.coupled).map(|r| r.name).collect();
+        rois.iter().filter(|r| r.coupled).map(|r| r.name).collect();
     let coupled_condition = CONDITIONS.iter().find(|c| c.coupled).map_or("", |c| c.name);
     let cells: Vec<Cell> = CONDITIONS
         .iter()
         .flat_map(|c| {
-            ROIS.iter().flat_map(move |r| {
+            rois.iter().flat_map(move |r| {
                 CHROMOPHORES.iter().map(move |&chromophore| Cell {
                     condition: c.name,
                     roi: r.name,
@@ -686,7 +687,8 @@ mod tests {
             assert_eq!(raw.headers.len(), 1 + 2 * 3 * cpr);
             assert_eq!(
                 raw.height(),
-                (super::super::scenario::RECORDING_S * hz) as usize
+                (800.0 * hz) as usize,
+                "the default schedule needs 800 s"
             );
             let step: f64 = raw
                 .column("time")
