@@ -214,25 +214,25 @@ fn grouped_pairs_match_single_pairs_bit_for_bit() {
 /// both, and the block mean stays within the bound.
 #[test]
 fn awkward_geometries_agree_with_the_full_grid() {
-    let cases: [(usize, f64, (f64, f64), Range<usize>); 8] = [
-        (64, 1.0, (2.0, 8.0), 20..44),
-        (64, 1.0, (2.0, 8.0), 0..64),
-        (64, 1.0, (2.0, 8.0), 31..32),
-        (64, 1.0, (2.0, 8.0), 0..3),
-        (200, 0.5, (4.0, 4.1), 60..140),
-        (300, 0.25, (2.0, 30.0), 100..200),
-        (40, 1.0, (8.0, 16.0), 10..30),
-        (3000, 0.05, (1.0, 3.0), 1000..1001),
+    let g = |n, dt, band, window| Geometry {
+        n,
+        dt,
+        band,
+        window,
+    };
+    let cases = [
+        g(64, 1.0, (2.0, 8.0), 20..44),
+        g(64, 1.0, (2.0, 8.0), 0..64),
+        g(64, 1.0, (2.0, 8.0), 31..32),
+        g(64, 1.0, (2.0, 8.0), 0..3),
+        g(200, 0.5, (4.0, 4.1), 60..140),
+        g(300, 0.25, (2.0, 30.0), 100..200),
+        g(40, 1.0, (8.0, 16.0), 10..30),
+        g(3000, 0.05, (1.0, 3.0), 1000..1001),
     ];
-    for (ci, (n, dt, band, window)) in cases.into_iter().enumerate() {
-        let g = Geometry {
-            n,
-            dt,
-            band,
-            window,
-        };
-        let (x, y) = pair(900 + ci as u64, n, 0.7);
-        let (exact, coarse) = both(&g, &x, &y);
+    for (ci, g) in cases.iter().enumerate() {
+        let (x, y) = pair(900 + ci as u64, g.n, 0.7);
+        let (exact, coarse) = both(g, &x, &y);
         assert_eq!(exact.n_points, coarse.n_points, "case {ci}");
         eprintln!(
             "case {ci}: points {} full {} coarse {}",
