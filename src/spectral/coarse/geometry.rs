@@ -22,6 +22,9 @@ pub(super) struct Stage {
     pub step: usize,
     /// Inverse FFT of `padded / step` points; `None` when no band point needs this scale.
     pub inverse: Option<Arc<dyn Fft<f64>>>,
+    /// The filter gains folded (indices into the scale's gain run): those above
+    /// [`GAIN_CUT`] of the largest; the rest change no node by a representable amount.
+    pub bins: Range<usize>,
     /// Node indices `first_node .. first_node + n_nodes` (instant `j·E`).
     pub first_node: usize,
     pub n_nodes: usize,
@@ -137,6 +140,7 @@ pub(super) fn build(
             grid_index,
             step,
             inverse: None,
+            bins: significant_gains(wavelet.filter(grid_index).1),
             first_node: 0,
             n_nodes: 0,
             offset,
@@ -181,6 +185,20 @@ pub(super) fn build(
         stages,
         rows,
         boxcar,
+    }
+}
+
+/// Gains below this fraction of a filter's peak are left out of the fold: `exp(−x²/2)` is
+/// under 10⁻²⁰ beyond about 9.6 standard deviations of the Morlet filter.
+pub(super) const GAIN_CUT: f64 = 1e-20;
+
+/// The run of gains at or above [`GAIN_CUT`] of the largest (empty if all are zero).
+fn significant_gains(gain: &[f64]) -> Range<usize> {
+    let peak = gain.iter().copied().fold(0.0f64, f64::max);
+    let keep = |g: &f64| *g > 0.0 && *g >= GAIN_CUT * peak;
+    match (gain.iter().position(keep), gain.iter().rposition(keep)) {
+        (Some(lo), Some(hi)) => lo..hi + 1,
+        _ => 0..0,
     }
 }
 

@@ -8,7 +8,8 @@
 //! 1. *Transform at nodes* (exact). Scale `s` is read only at the instants `j·E`, `E` the
 //!    largest power of two with `E·dt ≤ s / NODES_PER_SCALE`. The DFT sum of the transform at
 //!    `t = jE` only sees bins modulo `M = N/E`, so folding the filtered spectrum modulo `M` and
-//!    one `M`-point inverse FFT give the full-grid transform at exactly those instants.
+//!    one `M`-point inverse FFT give the full-grid transform at exactly those instants (gains
+//!    under 10⁻²⁰ of the filter's peak are left out of the fold).
 //! 2. *Time smoothing by quadrature.* Between nodes the product `P = W_x·conj(W_y)/s` is taken
 //!    as linear, which turns the full-grid sum `Σ_u g(τ−u)·P(u)` over the segment into
 //!    `Σ_j G(τ, j)·P(jE)` with `G(τ, j) = Σ_u g̃(τ−u)·hat((u − jE)/E)`. Linear interpolation
@@ -181,8 +182,8 @@ impl CoarsePlan {
             let fold = &mut sc.fold[..m];
             fold.fill(Complex64::new(0.0, 0.0));
             let (first, gain) = self.wavelet.filter(st.grid_index);
-            for (q, g) in gain.iter().enumerate() {
-                let bin = first + q;
+            for (q, g) in gain[st.bins.clone()].iter().enumerate() {
+                let bin = first + st.bins.start + q;
                 fold[bin & mask] += sc.spectrum[bin] * *g;
             }
             inverse.process_with_scratch(fold, &mut sc.fft[..inverse.get_inplace_scratch_len()]);
