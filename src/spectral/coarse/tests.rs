@@ -30,6 +30,15 @@ struct Geometry {
     window: Range<usize>,
 }
 
+fn geometry(n: usize, dt: f64, band: (f64, f64), window: Range<usize>) -> Geometry {
+    Geometry {
+        n,
+        dt,
+        band,
+        window,
+    }
+}
+
 fn both(g: &Geometry, x: &[f64], y: &[f64]) -> (BandCoherence, BandCoherence) {
     let grid = band_scale_grid(g.band.0, g.band.1, 6.0, 12);
     let wavelet = WaveletPlan::new(g.n, g.dt, 6.0, &grid.scales);
@@ -88,30 +97,10 @@ fn nodes_are_the_full_transform() {
 #[test]
 fn block_mean_r2_matches_full_grid() {
     let cases = [
-        Geometry {
-            n: 2400,
-            dt: 0.1,
-            band: (10.0, 50.0),
-            window: 900..1500,
-        },
-        Geometry {
-            n: 1200,
-            dt: 0.1,
-            band: (10.0, 50.0),
-            window: 300..900,
-        },
-        Geometry {
-            n: 500,
-            dt: 0.5,
-            band: (8.0, 30.0),
-            window: 100..400,
-        },
-        Geometry {
-            n: 1600,
-            dt: 0.25,
-            band: (3.0, 6.0),
-            window: 400..1200,
-        },
+        geometry(2400, 0.1, (10.0, 50.0), 900..1500),
+        geometry(1200, 0.1, (10.0, 50.0), 300..900),
+        geometry(500, 0.5, (8.0, 30.0), 100..400),
+        geometry(1600, 0.25, (3.0, 6.0), 400..1200),
     ];
     let mut worst = 0.0f64;
     for (ci, g) in cases.iter().enumerate() {
@@ -214,21 +203,15 @@ fn grouped_pairs_match_single_pairs_bit_for_bit() {
 /// both, and the block mean stays within the bound.
 #[test]
 fn awkward_geometries_agree_with_the_full_grid() {
-    let g = |n, dt, band, window| Geometry {
-        n,
-        dt,
-        band,
-        window,
-    };
     let cases = [
-        g(64, 1.0, (2.0, 8.0), 20..44),
-        g(64, 1.0, (2.0, 8.0), 0..64),
-        g(64, 1.0, (2.0, 8.0), 31..32),
-        g(64, 1.0, (2.0, 8.0), 0..3),
-        g(200, 0.5, (4.0, 4.1), 60..140),
-        g(300, 0.25, (2.0, 30.0), 100..200),
-        g(40, 1.0, (8.0, 16.0), 10..30),
-        g(3000, 0.05, (1.0, 3.0), 1000..1001),
+        geometry(64, 1.0, (2.0, 8.0), 20..44),
+        geometry(64, 1.0, (2.0, 8.0), 0..64),
+        geometry(64, 1.0, (2.0, 8.0), 31..32),
+        geometry(64, 1.0, (2.0, 8.0), 0..3),
+        geometry(200, 0.5, (4.0, 4.1), 60..140),
+        geometry(300, 0.25, (2.0, 30.0), 100..200),
+        geometry(40, 1.0, (8.0, 16.0), 10..30),
+        geometry(3000, 0.05, (1.0, 3.0), 1000..1001),
     ];
     for (ci, g) in cases.iter().enumerate() {
         let (x, y) = pair(900 + ci as u64, g.n, 0.7);
