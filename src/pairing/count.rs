@@ -277,7 +277,9 @@ pub(super) fn log10_odd_double_factorial(m: usize) -> f64 {
 
 #[cfg(test)]
 pub(super) mod tests {
-    use super::super::plan::tests::{family_scenario, m, roles, unrelated_peers, unrelated_roles};
+    use super::super::plan::tests::{
+        family_scenario, roles, unbalanced_site_plan, unrelated_peers, unrelated_roles,
+    };
     use super::super::{Mode, PairPlan, Rules};
     use super::*;
 
@@ -464,23 +466,7 @@ pub(super) mod tests {
     // re-pairing. Worked by hand: site N has adults A0, A1 but children C0, C2, C3.
     #[test]
     fn unbalanced_stratum_counts_zero() {
-        let a = Some("adult");
-        let c = Some("child");
-        let ms = vec![
-            m(0, "A0", a, &[("site", "N")]),
-            m(0, "C0", c, &[("site", "N")]),
-            m(1, "A1", a, &[("site", "N")]),
-            m(1, "C1", c, &[("site", "S")]),
-            m(2, "A2", a, &[("site", "S")]),
-            m(2, "C2", c, &[("site", "N")]),
-            m(3, "A3", a, &[("site", "S")]),
-            m(3, "C3", c, &[("site", "N")]),
-        ];
-        let rules = Rules {
-            keep_apart: vec![],
-            pair_within: vec!["site".into()],
-        };
-        let plan = PairPlan::build(&ms, 4, &roles(), &rules).unwrap();
+        let plan = unbalanced_site_plan();
         let cnt = plan.count_repairings();
         assert_eq!(cnt.exact_text.as_deref(), Some("0"));
         assert_eq!(

@@ -489,6 +489,27 @@ pub(super) mod tests {
         }
     }
 
+    /// Hall's condition fails by hand: within `pair_within = ["site"]`, site N has the adults
+    /// A0, A1 but the children C0, C2, C3, so no complete re-pairing exists.
+    pub(crate) fn unbalanced_site_plan() -> PairPlan {
+        let (a, c) = (Some("adult"), Some("child"));
+        let ms = vec![
+            m(0, "A0", a, &[("site", "N")]),
+            m(0, "C0", c, &[("site", "N")]),
+            m(1, "A1", a, &[("site", "N")]),
+            m(1, "C1", c, &[("site", "S")]),
+            m(2, "A2", a, &[("site", "S")]),
+            m(2, "C2", c, &[("site", "N")]),
+            m(3, "A3", a, &[("site", "S")]),
+            m(3, "C3", c, &[("site", "N")]),
+        ];
+        let rules = Rules {
+            keep_apart: vec![],
+            pair_within: vec!["site".into()],
+        };
+        PairPlan::build(&ms, 4, &roles(), &rules).unwrap()
+    }
+
     /// Roles-mode study of `n` unrelated dyads, adult listed before child.
     pub(crate) fn unrelated_roles(n: usize) -> Vec<PairingMember> {
         (0..n)

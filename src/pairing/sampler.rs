@@ -402,7 +402,9 @@ mod tests {
 
     use statrs::distribution::{ChiSquared, ContinuousCDF};
 
-    use super::super::plan::tests::{family_scenario, m, roles, unrelated_roles};
+    use super::super::plan::tests::{
+        family_scenario, m, roles, unbalanced_site_plan, unrelated_roles,
+    };
     use super::super::{Mode, PairPlan, PairingMember, Rules};
     use super::*;
 
@@ -791,23 +793,7 @@ mod tests {
     // children), so drawing must fail naming the stratum.
     #[test]
     fn unbalanced_stratum_is_named_when_drawing() {
-        let a = Some("adult");
-        let c = Some("child");
-        let ms = vec![
-            m(0, "A0", a, &[("site", "N")]),
-            m(0, "C0", c, &[("site", "N")]),
-            m(1, "A1", a, &[("site", "N")]),
-            m(1, "C1", c, &[("site", "S")]),
-            m(2, "A2", a, &[("site", "S")]),
-            m(2, "C2", c, &[("site", "N")]),
-            m(3, "A3", a, &[("site", "S")]),
-            m(3, "C3", c, &[("site", "N")]),
-        ];
-        let rules = Rules {
-            keep_apart: vec![],
-            pair_within: vec!["site".into()],
-        };
-        let plan = PairPlan::build(&ms, 4, &roles(), &rules).unwrap();
+        let plan = unbalanced_site_plan();
         let err = draw_repairings(&plan, 100, 1).unwrap_err();
         assert_eq!(
             err,
