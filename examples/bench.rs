@@ -74,9 +74,11 @@ fn main() -> anyhow::Result<()> {
 
     let t = Instant::now();
     let plan = pipeline::build_plan(&st).map_err(|p| anyhow::anyhow!(p.join("; ")))?;
-    let rc = plan.count_repairings();
+    let reference = st.config.inference.reference;
+    let null = pairing::NullDesign::new(&plan, reference, draws);
+    let rc = &null.count;
     println!(
-        "  plan + count          {:>9.3} s   ({} re-pairings, {})",
+        "  plan + count          {:>9.3} s   ({} re-pairings in the reference set, {})",
         t.elapsed().as_secs_f64(),
         rc.exact_text
             .clone()
@@ -85,7 +87,7 @@ fn main() -> anyhow::Result<()> {
     );
 
     let t = Instant::now();
-    let reps = pairing::draw_repairings(&plan, draws, 1)?;
+    let reps = null.draw(1)?;
     println!(
         "  {draws} re-pairings     {:>9.3} s   ({})",
         t.elapsed().as_secs_f64(),
@@ -107,10 +109,10 @@ fn main() -> anyhow::Result<()> {
     );
 
     let cells = pipeline::cells(&syn);
-    let layout = pipeline::layout(&st, &plan);
+    let layout = pipeline::layout(&st, &plan, &null);
     let cfg = pipeline::inference_config(&st, 2);
     for k in [draws, draws * 10] {
-        let reps = pairing::draw_repairings(&plan, k, 3)?;
+        let reps = pairing::NullDesign::new(&plan, reference, k).draw(3)?;
         let d = inference::Draws {
             pairs: &reps.pairs,
             n_dyads: reps.n_dyads,

@@ -5,6 +5,7 @@
 //! (re-pairing permutations, corrections) → `report` (tables, manifest, HTML). Each stage is a
 //! function from one plain type to the next; `commands` sequences them for the command line.
 
+pub mod calibration;
 pub mod cli;
 pub mod commands;
 pub mod demo;

@@ -6,7 +6,7 @@ use std::time::Instant;
 
 use crate::engine::{self, EngineOptions, PairRef, Progress, Synchrony};
 use crate::inference::{self, CellKey, CellMatrix, InferenceOutput};
-use crate::pairing::{self, PairPlan, PairingMember, PlanCounts, RepairingCount, Repairings};
+use crate::pairing::{self, NullDesign, PairPlan, PairingMember, PlanCounts, Repairings};
 use crate::study::Study;
 use crate::study::config::{AlternativeName, Axis, CorrectionName, PairingMode};
 
@@ -85,13 +85,15 @@ pub fn synchrony(
     )
 }
 
-/// The inference stage's view of the pair plan.
-pub fn layout(study: &Study, plan: &PairPlan) -> inference::Layout {
+/// The inference stage's view of the pair plan and of the null design: a pair may stand in
+/// a draw when the design admits it (with the default reference set real pairs may), while
+/// the pseudo-pair lists behind the pseudo means hold admissible pseudo-pairs only.
+pub fn layout(study: &Study, plan: &PairPlan, design: &NullDesign) -> inference::Layout {
     let (n_rows, n_cols) = (plan.n_rows(), plan.n_cols());
     let mut admissible = vec![false; n_rows * n_cols];
     for r in 0..n_rows {
         for c in 0..n_cols {
-            admissible[r * n_cols + c] = plan.is_admissible(r, c);
+            admissible[r * n_cols + c] = design.admits(r, c);
         }
     }
     let to_u32 =
@@ -109,29 +111,14 @@ pub fn layout(study: &Study, plan: &PairPlan) -> inference::Layout {
     }
 }
 
-/// The plan re-pairings are drawn from: the pair plan itself, or with `keep_real` the plan whose
-/// re-pairings may also keep real pairs.
-pub fn null_plan(plan: &PairPlan, keep_real: bool) -> PairPlan {
-    if keep_real {
-        plan.with_real_pairs_in_repairings()
-    } else {
-        plan.clone()
-    }
-}
-
-/// The inference layout for a null whose re-pairings may (`keep_real`) contain real pairs: they
-/// are then allowed in draws, and still never count as pseudo-pairs.
-pub fn null_layout(study: &Study, plan: &PairPlan, keep_real: bool) -> inference::Layout {
-    let mut layout = layout(study, plan);
-    if keep_real {
-        for &(r, c) in &layout.real {
-            layout.admissible[r as usize * layout.n_cols + c as usize] = true;
-            if layout.peers {
-                layout.admissible[c as usize * layout.n_cols + r as usize] = true;
-            }
-        }
-    }
-    layout
+/// The group test's null design for a study: its configured reference set, counted, with the
+/// sampler chosen once for the configured number of re-pairings.
+pub fn null_design(study: &Study, plan: &PairPlan) -> NullDesign {
+    NullDesign::new(
+        plan,
+        study.config.inference.reference,
+        study.config.inference.permutations,
+    )
 }
 
 /// The synchrony matrices as inference cells, in (condition, chromophore, band, roi) order.
@@ -197,28 +184,6 @@ pub fn stream_seeds(master: u64) -> (u64, u64) {
     (master, master ^ 0x9e37_79b9_7f4a_7c15)
 }
 
-/// Removes the observed pairing from an enumerated reference set. The inference counts the
-/// observed statistic once itself, p = (1 + #{T* ≥ T}) / (K + 1), so leaving it among the K
-/// would count it twice.
-fn drop_observed_pairing(reps: &mut Repairings, plan: &PairPlan) {
-    let d = reps.n_dyads;
-    let mut real: Vec<(u32, u32)> = plan
-        .real
-        .iter()
-        .map(|&(r, c)| (r as u32, c as u32))
-        .collect();
-    real.sort_unstable();
-    let mut kept = Vec::with_capacity(reps.pairs.len());
-    for draw in reps.pairs.chunks(d) {
-        let mut sorted = draw.to_vec();
-        sorted.sort_unstable();
-        if sorted != real {
-            kept.extend_from_slice(draw);
-        }
-    }
-    reps.pairs = kept;
-}
-
 #[derive(Clone, Copy, Debug)]
 pub struct AnalysisOptions {
     pub seed: u64,
@@ -230,8 +195,8 @@ pub struct Analysis {
     pub study: Study,
     pub plan: PairPlan,
     pub counts: PlanCounts,
-    pub repairing_count: RepairingCount,
-    pub sampler_reason: String,
+    /// The reference set, its size and sampler: what every output says the test drew from.
+    pub null: NullDesign,
     pub repairings: Repairings,
     pub synchrony: Synchrony,
     pub cells: Vec<CellMatrix>,
@@ -256,25 +221,17 @@ pub fn analyse(
     let plan = build_plan(&study)
         .map_err(|p| anyhow::anyhow!("pairing problems:\n  - {}", p.join("\n  - ")))?;
     let counts = plan.counts();
-    let repairing_count = plan.count_repairings();
+    let null = null_design(&study, &plan);
     lap("plan", &mut timings);
     let (repair_seed, inference_seed) = stream_seeds(opts.seed);
-    let permutations = study.config.inference.permutations;
-    let keep_real = study.config.inference.null_includes_real;
-    let null_plan = null_plan(&plan, keep_real);
-    let (method, sampler_reason) = pairing::choose_method(&null_plan, permutations);
-    let mut repairings =
-        pairing::draw_repairings_with(&null_plan, &method, permutations, repair_seed)?;
-    if keep_real && repairings.exact {
-        drop_observed_pairing(&mut repairings, &plan);
-    }
+    let repairings = null.draw(repair_seed)?;
     lap("re-pairings", &mut timings);
     let synchrony = synchrony(&study, &plan, opts.memory_bytes, progress)?;
     lap("synchrony", &mut timings);
     timings.push(("transforms".to_string(), synchrony.timing.transforms_s));
     timings.push(("pairs".to_string(), synchrony.timing.pairs_s));
     let cells = cells(&synchrony);
-    let layout = null_layout(&study, &plan, keep_real);
+    let layout = layout(&study, &plan, &null);
     let draws = inference::Draws {
         pairs: &repairings.pairs,
         n_dyads: repairings.n_dyads,
@@ -291,8 +248,7 @@ pub fn analyse(
         study,
         plan,
         counts,
-        repairing_count,
-        sampler_reason,
+        null,
         repairings,
         synchrony,
         cells,

@@ -350,7 +350,7 @@ fn sample_report() -> ReportData {
         alternative: "greater".into(),
         bootstrap: 2000,
         seed: 20261201,
-        reference_note: None,
+        pseudo_only: false,
     };
     ReportData {
         title: "Joint building study <pilot> & co".into(),

@@ -106,8 +106,22 @@ fn demo_pairing_audit_matches_a_hand_count() {
         n
     };
     assert_eq!(
-        plan["repairings"]["count_text"],
+        plan["repairings"]["sets"]["pseudo-only"]["count_text"],
         (per_site * per_site).to_string()
+    );
+    // The default reference set also lets a re-pairing keep real pairs (the diagonal).
+    let per_site_all = {
+        let mut n = 0u64;
+        let mut perm: Vec<usize> = (0..6).collect();
+        permute(&mut perm, 0, &mut |p| {
+            n += u64::from(p[0] != 1 && p[1] != 0)
+        });
+        n
+    };
+    assert_eq!(plan["repairings"]["reference"], "all");
+    assert_eq!(
+        plan["repairings"]["count_text"],
+        (per_site_all * per_site_all).to_string()
     );
     assert_eq!(plan["repairings"]["exact"], true);
     let pairs = std::fs::read_to_string(dir.path().join("pairs.tsv")).unwrap();

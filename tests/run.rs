@@ -193,14 +193,8 @@ fn an_interrupted_run_leaves_no_output_folder() {
 }
 
 #[test]
-fn a_null_that_may_keep_real_pairs_enumerates_its_reference_set_once() {
+fn an_enumerated_reference_set_holds_the_observed_pairing_once() {
     let s = quick_study();
-    s.edit("study.toml", |t| {
-        t.replace(
-            "bootstrap = 300",
-            "bootstrap = 300\nnull_includes_real = true",
-        )
-    });
     let out = s.dir.path().join("out");
     let o = s.run_into(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
@@ -213,12 +207,111 @@ fn a_null_that_may_keep_real_pairs_enumerates_its_reference_set_once() {
     // of them and is counted once by the p-value itself, so 195 are drawn.
     assert_eq!(m["counts"]["repairings_drawn"], 195, "{}", m["sampler"]);
     assert_eq!(m["sampler"]["exact"], true);
-    assert_eq!(m["config"]["inference"]["null_includes_real"], true);
+    assert_eq!(m["sampler"]["reference"], "all");
+    assert_eq!(m["config"]["inference"]["reference"], "all");
     let report = std::fs::read_to_string(out.join("report.html")).unwrap();
     assert!(
-        report.contains("contained the observed pairing"),
+        report.contains("the observed pairing among them; the study admitted 196 re-pairings"),
         "methods paragraph names the reference set"
     );
+    // Pseudo-pairs only: derangements of 4 avoiding the two family cells, 9 − 3 − 3 + 1 = 4
+    // per site (inclusion–exclusion), 16 in all, none of them the observed pairing.
+    s.edit("study.toml", |t| {
+        t.replace("reference = \"all\"", "reference = \"pseudo-only\"")
+    });
+    let out = s.dir.path().join("out-pseudo");
+    let o = s.run_into(&out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("warning: reference = \"pseudo-only\""),
+        "{}",
+        stderr(&o)
+    );
+    let m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
+    assert_eq!(m["counts"]["repairings_drawn"], 16, "{}", m["sampler"]);
+    assert_eq!(m["sampler"]["reference"], "pseudo-only");
+    let report = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(report.contains("rejects too often when members are re-paired in small pools"));
+}
+
+/// `plan`, the run's `plan.json`, its manifest, its one-screen summary and its report must all
+/// describe the set the test drew from, with either reference set.
+#[test]
+fn every_output_describes_the_reference_set_the_test_drew_from() {
+    let s = TempStudy::with_args(&[]);
+    s.edit("study.toml", |t| {
+        t.replace("bootstrap = 2000", "bootstrap = 0")
+    });
+    // The demo's rules: two sites of 6 dyads; at each site the first two dyads are one family
+    // (two cells excluded). Every re-pairing: 6! − 2·5! + 4! = 504 per site (inclusion–
+    // exclusion), 504² = 254016; pseudo-pairs only: 168 per site (tests/demo.rs counts it by
+    // brute force), 168² = 28224. Both exceed the 10000 requested, so both are sampled by
+    // rejection, with acceptance 254016 / 720² = 0.490 and 28224 / 720² = 0.054.
+    for (reference, count, acceptance) in [
+        (None, "254016", "0.490"),
+        (Some("pseudo-only"), "28224", "0.054"),
+    ] {
+        if let Some(r) = reference {
+            s.edit("study.toml", |t| {
+                t.replace("reference = \"all\"", &format!("reference = \"{r}\""))
+            });
+        }
+        let name = reference.unwrap_or("all");
+        let audit_dir = s.dir.path().join(format!("plan-{name}"));
+        let o = nevermet(&[
+            "plan",
+            s.toml().to_str().unwrap(),
+            "--out",
+            audit_dir.to_str().unwrap(),
+        ]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let printed = stdout(&o);
+        assert!(
+            printed.contains(&format!("reference set  {name}")),
+            "{printed}"
+        );
+        assert!(
+            printed.contains(&format!("acceptance {acceptance}")),
+            "{printed}"
+        );
+        let out = s.dir.path().join(format!("out-{name}"));
+        let o = s.run_into(&out, &[]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let summary = stdout(&o);
+        assert!(
+            summary.contains(&format!(
+                "10000 drawn from the reference set {name} ({count} re-pairings)"
+            )),
+            "{summary}"
+        );
+        assert!(
+            summary.contains(&format!("acceptance {acceptance}")),
+            "{summary}"
+        );
+        let json = |p: PathBuf| -> serde_json::Value {
+            serde_json::from_str(&std::fs::read_to_string(p).unwrap()).unwrap()
+        };
+        let planned = json(audit_dir.join("plan.json"));
+        let ran = json(out.join("plan.json"));
+        assert_eq!(planned["repairings"], ran["repairings"]);
+        assert_eq!(planned["sampler"], ran["sampler"]);
+        assert_eq!(ran["repairings"]["reference"], name);
+        assert_eq!(ran["repairings"]["count_text"], count);
+        let m = json(out.join("manifest.json"));
+        assert_eq!(m["sampler"]["reference"], name);
+        assert_eq!(m["sampler"]["reference_size"]["count_text"], count);
+        assert_eq!(m["sampler"]["method"], ran["sampler"]["method"]);
+        let report = std::fs::read_to_string(out.join("report.html")).unwrap();
+        assert!(
+            report.contains(&format!("admitted {count}")),
+            "report count"
+        );
+        assert!(
+            report.contains(&format!("acceptance {acceptance}")),
+            "report sampler"
+        );
+    }
 }
 
 #[test]

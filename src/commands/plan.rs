@@ -5,7 +5,6 @@ use std::process::ExitCode;
 use anyhow::Context;
 
 use crate::cli::PlanArgs;
-use crate::pairing;
 use crate::pipeline;
 use crate::report::{self, plan::PlanAudit};
 use crate::study;
@@ -23,10 +22,12 @@ pub fn plan(args: &PlanArgs) -> anyhow::Result<ExitCode> {
         }
     };
     let counts = plan.counts();
-    let rc = plan.count_repairings();
-    let (method, reason) = pairing::choose_method(&plan, study.config.inference.permutations);
-    let audit = PlanAudit::new(&study, &plan, &counts, &rc, method, reason);
+    let null = pipeline::null_design(&study, &plan);
+    let audit = PlanAudit::new(&study, &plan, &counts, &null);
     print!("{audit}");
+    if let Some(w) = null.warning() {
+        eprintln!("warning: {w}");
+    }
     if let Some(out) = &args.out {
         std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
         report::tables::pairs(&study, &plan, &out.join("pairs.tsv"))?;

@@ -58,6 +58,7 @@ pub fn execute(
     let mut analysis = pipeline::analyse(study, opts, progress)?;
     analysis.timings.insert(0, ("load".to_string(), load_time));
     let mut warnings = analysis.study.warnings.clone();
+    warnings.extend(analysis.null.warning());
     warnings.extend(analysis.inference.warnings.iter().cloned());
     let audit = report::audit(&analysis);
     let t = Instant::now();
@@ -88,10 +89,13 @@ pub fn execute(
         threads,
         memory_gib,
         sampler: serde_json::json!({
+            "reference": analysis.null.reference,
+            "reference_size": audit.repairings.size,
             "method": analysis.repairings.method,
             "description": analysis.repairings.method.to_string(),
             "exact": analysis.repairings.exact,
-            "reason": analysis.sampler_reason,
+            "compared_with": analysis.repairings.len(),
+            "reason": analysis.null.reason,
         }),
         config: Manifest::resolved_config(&analysis.study.config),
         counts,
@@ -149,6 +153,26 @@ pub fn run(args: &RunArgs) -> anyhow::Result<ExitCode> {
     Ok(ExitCode::SUCCESS)
 }
 
+/// What the group test compared T with, in one line: the reference set, its size and how
+/// its members were drawn.
+fn repairings_line(o: &Outcome) -> String {
+    let a = &o.analysis;
+    let set = format!(
+        "reference set {} ({} re-pairings)",
+        a.null.reference.name(),
+        o.audit.repairings_text()
+    );
+    if a.repairings.exact {
+        format!("{set}, enumerated completely: the p-values are exact")
+    } else {
+        format!(
+            "{} drawn from the {set}; {}",
+            a.repairings.len(),
+            a.repairings.method
+        )
+    }
+}
+
 fn print_summary(o: &Outcome, out: &Path) {
     let a = &o.analysis;
     let audit = &o.audit;
@@ -161,12 +185,7 @@ fn print_summary(o: &Outcome, out: &Path) {
         "  pairs       {} real, {} admissible pseudo-pairs, {} excluded",
         audit.real, audit.admissible_pairs, audit.excluded
     );
-    println!(
-        "  re-pairings {} drawn of {} admissible; {}",
-        a.repairings.len(),
-        audit.repairings_text(),
-        a.repairings.method
-    );
+    println!("  re-pairings {}", repairings_line(o));
     let sig: Vec<_> = a
         .inference
         .results

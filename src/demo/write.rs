@@ -240,6 +240,9 @@ correction = "maxstat"
 family = ["band", "roi", "chromophore"]
 # Bootstrap resamples for confidence intervals.
 bootstrap = 2000
+# The re-pairings the real pairing is compared with: "all" (every re-pairing, the real one
+# among them: exact) or "pseudo-only" (pseudo-pairs only: approximate, liberal in small pools).
+reference = "all"
 
 [[contrasts]]
 # Compares real-versus-pseudo synchrony between two conditions.

@@ -9,11 +9,12 @@
 //! recording within one dyad; a *participant* is a person id (one person may be a
 //! member of several dyads). The *real pair* is the two members of one dyad; a
 //! *pseudo-pair* joins members of different dyads; a *re-pairing* assigns every member
-//! to exactly one admissible pseudo-pair.
+//! a partner so that every pair is real or admissible (the observed pairing is one).
 //!
 //! Flow: [`PairPlan::build`] checks the layout and rules and gives every candidate a
-//! [`Status`]; [`PairPlan::count_repairings`] says how many re-pairings exist;
-//! [`choose_method`] / [`draw_repairings`] draw them uniformly.
+//! [`Status`]; [`NullDesign::new`] decides the group test's reference set (every re-pairing
+//! by default, or pseudo-pairs only), counts it and chooses the sampler once;
+//! [`NullDesign::draw`] draws from it uniformly.
 //!
 //! Choices worth knowing:
 //! - A blank or missing attribute value never equals anything: it never triggers
@@ -25,6 +26,7 @@
 //!   distribution); rejection draws are exactly uniform but still a random sample.
 //!
 //! Module map: `rules` (one pair's reasons), `plan` (the grid, strata, member checks),
+//! `null` (the reference set and its sampler, the one value every stage reads),
 //! `count` with `permanent`, `exclusion`, `estimate` (how many re-pairings), `matching`
 //! (one re-pairing, or why none), `enumerate`, `rejection`, `chain` (the three
 //! samplers), `sampler` (method choice, streams, parallel loop), `bigint`, `bits`
@@ -41,6 +43,7 @@ mod error;
 mod estimate;
 mod exclusion;
 mod matching;
+mod null;
 mod permanent;
 mod plan;
 mod rejection;
@@ -49,6 +52,7 @@ mod sampler;
 
 pub use count::RepairingCount;
 pub use error::{PairingError, PairingProblem};
+pub use null::{NullDesign, Reference};
 pub use plan::{PairPlan, PlanCounts};
 pub use rules::{Reason, Status};
 pub use sampler::{

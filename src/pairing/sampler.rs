@@ -48,7 +48,7 @@ impl fmt::Display for SamplerMethod {
         match self {
             SamplerMethod::Enumerated { count } => write!(
                 f,
-                "complete enumeration of all {count} admissible re-pairings"
+                "complete enumeration of all {count} re-pairings of the reference set"
             ),
             SamplerMethod::Rejection { acceptance } => write!(
                 f,
@@ -76,7 +76,7 @@ fn rate(a: f64) -> String {
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Repairings {
     pub method: SamplerMethod,
-    /// True when the draws are the complete set of admissible re-pairings (the exact
+    /// True when the draws are the complete reference set of re-pairings (the exact
     /// permutation distribution) rather than a random sample.
     pub exact: bool,
     pub n_dyads: usize,
@@ -716,7 +716,7 @@ mod tests {
         assert_eq!(all.len(), 576);
         assert_eq!(
             all.method.to_string(),
-            "complete enumeration of all 576 admissible re-pairings"
+            "complete enumeration of all 576 re-pairings of the reference set"
         );
         assert_valid(&plan, &all);
         let some = draw_repairings(&plan, 100, 5).unwrap();

@@ -119,9 +119,9 @@ pub struct MethodsInput {
     pub n_members: usize,
     pub admissible_pairs: usize,
     pub excluded_by_rule: Vec<(String, usize)>,
-    /// Number of re-pairings, as text because an exact count may exceed any integer type.
+    /// Size of the reference set, as text because an exact count may exceed any integer type.
     pub repairings_count: String,
-    /// True when all admissible re-pairings are enumerated rather than sampled.
+    /// True when the whole reference set is enumerated rather than sampled.
     pub repairings_exact: bool,
     pub permutations: usize,
     pub sampler: String,
@@ -131,6 +131,6 @@ pub struct MethodsInput {
     pub alternative: String,
     pub bootstrap: usize,
     pub seed: u64,
-    /// A sentence on the reference set when re-pairings may keep real pairs.
-    pub reference_note: Option<String>,
+    /// True when the reference set is re-pairings of pseudo-pairs only (the approximate one).
+    pub pseudo_only: bool,
 }

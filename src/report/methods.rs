@@ -229,30 +229,47 @@ fn pairing_sentences(m: &MethodsInput) -> Vec<String> {
     s
 }
 
+/// Measured size of the approximate reference set, quoted in the methods paragraph (project
+/// simulations: whole synthetic null studies, `tests/calibration.rs` and the calibrate example).
+pub const PSEUDO_ONLY_CALIBRATION: &str = "PENDING";
+
 fn null_sentences(m: &MethodsInput) -> Vec<String> {
-    let mut s = vec![format!(
-        "The test statistic T of a cell was the mean synchrony over the real pairs. Under \
-         the null hypothesis that synchrony does not depend on who was recorded with whom, \
-         the real pairing is exchangeable with any re-pairing, an assignment of every member \
-         to an admissible pseudo-partner; the study admitted {} re-pairings.",
-        m.repairings_count
-    )];
+    let mut s = vec![
+        "The test statistic T of a cell was the mean synchrony over the real pairs.".to_string(),
+    ];
+    if m.pseudo_only {
+        s.push(format!(
+            "It was compared with re-pairings made of pseudo-pairs only, assignments of every \
+             member to an admissible pseudo-partner, of which the study admitted {}. Because \
+             this reference set does not contain the observed pairing, the test is \
+             approximate and rejects too often when members are re-paired in small pools \
+             ({PSEUDO_ONLY_CALIBRATION}).",
+            m.repairings_count
+        ));
+    } else {
+        s.push(format!(
+            "Under the null hypothesis that synchrony does not depend on who was recorded \
+             with whom, the observed pairing is exchangeable with every re-pairing: every \
+             assignment of partners in which each pair is real or admissible, the observed \
+             pairing among them; the study admitted {} re-pairings. A real pair kept by a \
+             re-pairing entered T* with its own value; real pairs never entered the \
+             pseudo-pair means.",
+            m.repairings_count
+        ));
+    }
     if m.repairings_exact {
         s.push(format!(
             "The null distribution of T was obtained exactly, by enumerating all {} \
-             admissible re-pairings and computing the statistic T* for each.",
+             re-pairings of the reference set and computing the statistic T* for each.",
             m.repairings_count
         ));
     } else {
         s.push(format!(
             "The null distribution of T was estimated from K = {} re-pairings drawn uniformly \
-             from the admissible set (sampler: {}), the same draws for every cell, with the \
+             from the reference set (sampler: {}), the same draws for every cell, with the \
              statistic T* computed for each.",
             m.permutations, m.sampler
         ));
-    }
-    if let Some(note) = &m.reference_note {
-        s.push(note.clone());
     }
     let direction = match m.alternative.as_str() {
         "greater" => "one-sided (greater: real pairs more synchronous than pseudo-pairs), \
@@ -263,9 +280,15 @@ fn null_sentences(m: &MethodsInput) -> Vec<String> {
         }
         other => other.to_owned(),
     };
+    let rank = if m.repairings_exact && !m.pseudo_only {
+        "; K counted the re-pairings other than the observed one, so p was the rank of T among \
+         all re-pairings"
+    } else {
+        ""
+    };
     s.push(format!(
         "p-values were {direction}, as p = (b + 1)/(K + 1) with b such re-pairings among K \
-         (Phipson & Smyth 2010)."
+         (Phipson & Smyth 2010){rank}."
     ));
     s
 }
@@ -378,7 +401,7 @@ mod tests {
             ],
             repairings_count: "123456789012345678901234567890".into(),
             repairings_exact: false,
-            reference_note: None,
+            pseudo_only: false,
             permutations: 4999,
             sampler: "rejection sampling of uniform re-pairings within strata".into(),
             correction: "holm".into(),
@@ -460,7 +483,7 @@ mod tests {
         m.bootstrap = 0;
         let p = paragraph(&m);
         for needle in [
-            "enumerating all 720 admissible re-pairings",
+            "enumerating all 720 re-pairings of the reference set",
             "Pearson correlation",
             "Fisher's z",
             "peers mode",

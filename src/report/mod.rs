@@ -21,14 +21,7 @@ use plan::PlanAudit;
 
 /// The audit of an analysis' pair plan.
 pub fn audit(a: &Analysis) -> PlanAudit {
-    PlanAudit::new(
-        &a.study,
-        &a.plan,
-        &a.counts,
-        &a.repairing_count,
-        a.repairings.method.clone(),
-        a.sampler_reason.clone(),
-    )
+    PlanAudit::new(&a.study, &a.plan, &a.counts, &a.null)
 }
 
 /// Writes every result file into `dir`, returning their paths (manifest and timings excluded).

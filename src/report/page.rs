@@ -3,7 +3,7 @@
 use super::data::{CellPlots, ContrastLine, MatrixPlot, MethodsInput, ReportData, ResultLine};
 use super::plan::PlanAudit;
 use crate::inference::TestKind;
-use crate::pairing::Status;
+use crate::pairing::{Reference, Status};
 use crate::pipeline::Analysis;
 use crate::study::config::{ChannelPairs, Measure, TimeGrid};
 
@@ -64,21 +64,11 @@ pub fn methods_input(a: &Analysis, audit: &PlanAudit) -> MethodsInput {
             .iter()
             .map(|(k, v)| (k.clone(), *v))
             .collect(),
-        // With real pairs allowed and the set enumerated, the set is the draws plus the
-        // observed pairing, which the p-value counts itself.
-        repairings_count: if cfg.inference.null_includes_real && a.repairings.exact {
-            (a.repairings.len() + 1).to_string()
-        } else {
-            audit.repairings_text()
-        },
+        repairings_count: audit.repairings_text(),
         repairings_exact: a.repairings.exact,
         permutations: a.repairings.len(),
         sampler: a.repairings.method.to_string(),
-        reference_note: cfg.inference.null_includes_real.then(|| {
-            "Re-pairings could keep real pairs, so the reference set contained the observed \
-             pairing itself; real pairs never entered the pseudo-pair means."
-                .to_string()
-        }),
+        pseudo_only: a.null.reference == Reference::PseudoOnly,
         correction: format!("{:?}", cfg.inference.correction).to_lowercase(),
         family: cfg
             .inference
@@ -132,11 +122,19 @@ pub fn report_data(a: &Analysis, audit: &PlanAudit, warnings: &[String]) -> Repo
         ),
         ("excluded".to_string(), audit.excluded.to_string()),
         (
-            "admissible re-pairings".to_string(),
+            "reference set".to_string(),
+            format!(
+                "{}: {}",
+                audit.repairings.reference.name(),
+                audit.repairings.reference_description
+            ),
+        ),
+        (
+            "re-pairings in the reference set".to_string(),
             format!(
                 "{} ({})",
                 audit.repairings_text(),
-                if audit.repairings.exact {
+                if audit.repairings.size.exact {
                     "exact"
                 } else {
                     "estimate"

@@ -5,19 +5,73 @@ use std::fmt;
 
 use serde::Serialize;
 
-use crate::pairing::{PairPlan, PlanCounts, RepairingCount, SamplerMethod};
+use crate::pairing::{NullDesign, PairPlan, PlanCounts, Reference, RepairingCount, SamplerMethod};
 use crate::study::Study;
 use crate::study::config::{ChannelPairs, Measure};
 
+/// The size of one reference set.
 #[derive(Clone, Debug, Serialize)]
-pub struct RepairingsAudit {
-    /// The number of admissible re-pairings (or its estimate).
+pub struct SetAudit {
+    /// The number of re-pairings (or its estimate); beyond the double range see `log10`.
     pub count: f64,
     pub exact: bool,
-    /// The exact count in decimal, when known.
+    /// The exact count in decimal, every digit, when known.
     pub count_text: Option<String>,
     pub method: String,
     pub log10: f64,
+}
+
+impl SetAudit {
+    fn new(rc: &RepairingCount) -> Self {
+        SetAudit {
+            count: rc.value,
+            exact: rc.exact,
+            count_text: rc.exact_text.clone(),
+            method: rc.method.clone(),
+            log10: rc.log10,
+        }
+    }
+
+    /// The count as people read it: every digit up to 15 of them, scientific form beyond,
+    /// "about" before an estimate.
+    pub fn readable(&self) -> String {
+        match (&self.count_text, self.exact) {
+            (Some(t), true) if t.len() <= 15 => t.clone(),
+            (_, true) => scientific(self.log10),
+            _ if self.log10.is_finite() => format!("about {}", scientific(self.log10)),
+            _ => "about 0".to_string(),
+        }
+    }
+}
+
+/// `m × 10^e` with three significant digits, from a base-10 logarithm.
+fn scientific(log10: f64) -> String {
+    if !log10.is_finite() {
+        return "0".to_string();
+    }
+    let mut e = log10.floor();
+    let mut m = 10f64.powf(log10 - e);
+    if (m * 100.0).round() >= 1000.0 {
+        m /= 10.0;
+        e += 1.0;
+    }
+    if e < 6.0 {
+        return format!("{:.0}", 10f64.powf(log10));
+    }
+    format!("{m:.2} × 10^{e}")
+}
+
+/// The group test's reference set and the sizes of both sets.
+#[derive(Clone, Debug, Serialize)]
+pub struct RepairingsAudit {
+    /// The set the group test draws from.
+    pub reference: Reference,
+    pub reference_description: String,
+    /// Its size (`count`, `exact`, `count_text`, `method`, `log10`).
+    #[serde(flatten)]
+    pub size: SetAudit,
+    /// Both sets by name (`all`, `pseudo-only`).
+    pub sets: BTreeMap<String, SetAudit>,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -59,14 +113,7 @@ pub struct PlanAudit {
 }
 
 impl PlanAudit {
-    pub fn new(
-        study: &Study,
-        plan: &PairPlan,
-        counts: &PlanCounts,
-        rc: &RepairingCount,
-        method: SamplerMethod,
-        reason: String,
-    ) -> Self {
+    pub fn new(study: &Study, plan: &PairPlan, counts: &PlanCounts, null: &NullDesign) -> Self {
         let partners = plan.admissible_partners();
         let members: BTreeMap<String, usize> = partners
             .iter()
@@ -121,17 +168,19 @@ impl PlanAudit {
             partners_max: counts_only.last().copied().unwrap_or(0),
             fewest,
             repairings: RepairingsAudit {
-                count: rc.value,
-                exact: rc.exact,
-                count_text: rc.exact_text.clone(),
-                method: rc.method.clone(),
-                log10: rc.log10,
+                reference: null.reference,
+                reference_description: null.reference.describe().to_string(),
+                size: SetAudit::new(&null.count),
+                sets: Reference::NAMES
+                    .iter()
+                    .map(|&(name, r)| (name.to_string(), SetAudit::new(null.count_of(r))))
+                    .collect(),
             },
             sampler: SamplerAudit {
-                description: method.to_string(),
-                method,
-                reason,
-                draws: study.config.inference.permutations,
+                description: null.method.to_string(),
+                method: null.method.clone(),
+                reason: null.reason.clone(),
+                draws: null.requested,
             },
             cost: CostAudit {
                 pairs,
@@ -141,15 +190,9 @@ impl PlanAudit {
         }
     }
 
-    /// The number of re-pairings as people read it.
+    /// The size of the reference set as people read it.
     pub fn repairings_text(&self) -> String {
-        match (&self.repairings.count_text, self.repairings.exact) {
-            (Some(t), true) => t.clone(),
-            _ if self.repairings.log10.is_finite() && self.repairings.log10 > 15.0 => {
-                format!("about 10^{:.1}", self.repairings.log10)
-            }
-            _ => format!("about {:.3e}", self.repairings.count),
-        }
+        self.repairings.size.readable()
     }
 }
 
@@ -169,17 +212,27 @@ impl fmt::Display for PlanAudit {
             self.partners_min, self.partners_median, self.partners_max
         )?;
         writeln!(f, "  fewest         {}", self.fewest.join(", "))?;
+        let r = &self.repairings;
         writeln!(
             f,
-            "  re-pairings    {} ({}, {})",
-            self.repairings_text(),
-            if self.repairings.exact {
-                "exact"
-            } else {
-                "estimate"
-            },
-            self.repairings.method
+            "  reference set  {} ({})",
+            r.reference.name(),
+            r.reference_description
         )?;
+        for (name, set) in &r.sets {
+            let used = if name == r.reference.name() {
+                "  <- used by the test"
+            } else {
+                ""
+            };
+            writeln!(
+                f,
+                "  re-pairings    {name:<12} {} ({}, {}){used}",
+                set.readable(),
+                if set.exact { "exact" } else { "estimate" },
+                set.method
+            )?;
+        }
         writeln!(f, "  sampler        {}", self.sampler.description)?;
         writeln!(f, "                 why: {}", self.sampler.reason)?;
         writeln!(

@@ -13,6 +13,7 @@ use serde::Serialize;
 use toml::Value;
 
 use super::problem::{Problem, Problems};
+use crate::pairing::Reference;
 
 /// The kinds of value a key may hold, for messages and checks.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -20,7 +21,6 @@ enum Kind {
     Text,
     Number,
     Integer,
-    Boolean,
     TextList,
 }
 
@@ -30,7 +30,6 @@ impl Kind {
             Kind::Text => "a string",
             Kind::Number => "a number",
             Kind::Integer => "an integer",
-            Kind::Boolean => "true or false",
             Kind::TextList => "an array of strings",
         }
     }
@@ -39,6 +38,14 @@ impl Kind {
 /// The schema: every section, whether it is an array of tables, and its keys.
 /// A section: its name, whether it is an array of tables, and its keys with their kinds.
 type Section = (&'static str, bool, &'static [(&'static str, Kind)]);
+
+/// Keys of earlier versions, with what replaced them, so an old study.toml gets a precise
+/// message instead of a nearest-key guess.
+const RETIRED: &[(&str, &str, &str)] = &[(
+    "inference",
+    "null_includes_real",
+    "replaced by `reference`: \"all\" (the default: re-pairings may keep real pairs) or \"pseudo-only\"",
+)];
 
 const SECTIONS: &[Section] = &[
     (
@@ -101,7 +108,7 @@ const SECTIONS: &[Section] = &[
             ("family", Kind::TextList),
             ("bootstrap", Kind::Integer),
             ("alternative", Kind::Text),
-            ("null_includes_real", Kind::Boolean),
+            ("reference", Kind::Text),
         ],
     ),
     (
@@ -218,9 +225,9 @@ pub struct Inference {
     pub family: Vec<Axis>,
     pub bootstrap: usize,
     pub alternative: AlternativeName,
-    /// Whether re-pairings may keep real pairs, so that the null's reference set contains the
-    /// observed pairing (exact under random pairing); by default every pair is a pseudo-pair.
-    pub null_includes_real: bool,
+    /// The group test's reference set: every re-pairing (default; it contains the observed
+    /// pairing) or re-pairings of pseudo-pairs only.
+    pub reference: Reference,
 }
 
 impl Inference {
@@ -339,6 +346,15 @@ fn check_schema(root: &toml::Table, file: &Path, problems: &mut Problems) {
                     } else {
                         format!("[{name}]")
                     };
+                    if let Some((_, _, why)) =
+                        RETIRED.iter().find(|r| r.0 == name && r.1 == key.as_str())
+                    {
+                        problems.push(Problem::in_file(
+                            file,
+                            format!("key `{key}` in section {shown} was {why}"),
+                        ));
+                        continue;
+                    }
                     problems.push(
                         Problem::in_file(file, format!("unknown key `{key}` in section {shown}"))
                             .hint(nearest_hint(key, &key_names)),
@@ -429,17 +445,6 @@ impl Reader<'_> {
             Value::Integer(i) => Some(*i),
             other => {
                 self.wrong_type(&format!("{section}.{key}"), Kind::Integer, other);
-                None
-            }
-        }
-    }
-
-    fn boolean(&mut self, t: Option<&toml::Table>, section: &str, key: &str) -> Option<bool> {
-        let v = t?.get(key)?;
-        match v {
-            Value::Boolean(b) => Some(*b),
-            other => {
-                self.wrong_type(&format!("{section}.{key}"), Kind::Boolean, other);
                 None
             }
         }
@@ -760,9 +765,13 @@ impl Reader<'_> {
                 ],
                 AlternativeName::Greater,
             ),
-            null_includes_real: self
-                .boolean(i, "inference", "null_includes_real")
-                .unwrap_or(false),
+            reference: self.choice(
+                i,
+                "inference",
+                "reference",
+                &Reference::NAMES,
+                Reference::All,
+            ),
         };
 
         let contrasts = self.contrasts(root);
@@ -933,16 +942,26 @@ roles = ["caregiver", "child"]
     }
 
     #[test]
-    fn a_boolean_key_takes_only_booleans() {
-        let on = parse(&format!("{BASE}\n[inference]\nnull_includes_real = true\n")).unwrap();
-        assert!(on.inference.null_includes_real);
-        assert!(!parse(BASE).unwrap().inference.null_includes_real);
-        let err = parse(&format!(
-            "{BASE}\n[inference]\nnull_includes_real = \"yes\"\n"
+    fn the_reference_set_is_every_re_pairing_unless_chosen() {
+        assert_eq!(parse(BASE).unwrap().inference.reference, Reference::All);
+        let p = parse(&format!(
+            "{BASE}\n[inference]\nreference = \"pseudo-only\"\n"
         ))
-        .unwrap_err()
-        .to_string();
-        assert!(err.contains("must be true or false"), "{err}");
+        .unwrap();
+        assert_eq!(p.inference.reference, Reference::PseudoOnly);
+        let err = parse(&format!("{BASE}\n[inference]\nreference = \"pseudo\"\n"))
+            .unwrap_err()
+            .to_string();
+        assert!(err.contains("did you mean `pseudo-only`?"), "{err}");
+        let err = parse(&format!("{BASE}\n[inference]\nnull_includes_real = true\n"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains(
+                "key `null_includes_real` in section [inference] was replaced by `reference`"
+            ),
+            "{err}"
+        );
     }
 
     #[test]
