@@ -10,5 +10,6 @@ mod engine;
 mod errors;
 mod inference_reference;
 mod loading;
+mod pycwt_reference;
 mod run;
 mod spectral_reference;

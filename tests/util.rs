@@ -146,8 +146,16 @@ pub fn assert_fails_with(o: &Output, phrases: &[&str]) {
     }
 }
 
-/// A Python interpreter with numpy, scipy and statsmodels, in a virtual environment under
-/// `target/` created on first use, so `cargo test --release` alone works on a fresh machine.
+/// Packages of the Python reference environment: numpy, scipy and statsmodels for the
+/// project's own reference scripts, pycwt as an outside wavelet library (it brings matplotlib
+/// and tqdm along). Nothing is pinned; pycwt is published as pre-releases only, which pip
+/// takes when a package has no final release.
+const PY_PACKAGES: [&str; 4] = ["numpy", "scipy", "statsmodels", "pycwt"];
+
+/// A Python interpreter with [`PY_PACKAGES`], in a virtual environment under `target/` created
+/// on first use, so `cargo test --release` alone works on a fresh machine. The stamp file
+/// names the packages installed; an environment whose stamp names others (one made before a
+/// package was added) gets the missing ones installed in place.
 pub fn python() -> &'static Path {
     static PY: OnceLock<PathBuf> = OnceLock::new();
     PY.get_or_init(|| {
@@ -155,28 +163,25 @@ pub fn python() -> &'static Path {
         let venv = target.join("pyref-venv");
         let py = venv.join("bin").join("python");
         let stamp = venv.join(".nevermet-ready");
-        if !stamp.exists() {
-            let ok = Command::new("python3")
-                .args(["-m", "venv", venv.to_str().unwrap()])
-                .status()
-                .expect("python3 -m venv")
-                .success();
-            assert!(ok, "could not create the Python reference environment");
+        let want = PY_PACKAGES.join(" ");
+        let ready = std::fs::read_to_string(&stamp).is_ok_and(|s| s.trim() == want);
+        if !ready {
+            if !py.exists() {
+                let ok = Command::new("python3")
+                    .args(["-m", "venv", venv.to_str().unwrap()])
+                    .status()
+                    .expect("python3 -m venv")
+                    .success();
+                assert!(ok, "could not create the Python reference environment");
+            }
             let ok = Command::new(&py)
-                .args([
-                    "-m",
-                    "pip",
-                    "install",
-                    "--quiet",
-                    "numpy",
-                    "scipy",
-                    "statsmodels",
-                ])
+                .args(["-m", "pip", "install", "--quiet"])
+                .args(PY_PACKAGES)
                 .status()
                 .expect("pip install")
                 .success();
-            assert!(ok, "could not install numpy, scipy and statsmodels");
-            std::fs::write(&stamp, "ok").unwrap();
+            assert!(ok, "could not install {want}");
+            std::fs::write(&stamp, &want).unwrap();
         }
         py
     })
