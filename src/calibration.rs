@@ -173,13 +173,23 @@ impl Tally {
     }
 }
 
+/// Stack of the workers that run whole studies. Each study's pipeline runs parallel loops of
+/// its own on the same workers, and a worker waiting inside one may take up another whole
+/// study on top of its stack, so the default 2 MiB is not enough.
+const STUDY_WORKER_STACK: usize = 256 << 20;
+
 /// Runs `studies` studies of the design (seeds `first_seed..`), in parallel; the tally does not
 /// depend on the thread count.
 pub fn tally(design: &Design, first_seed: u64, studies: usize) -> anyhow::Result<Tally> {
-    let outcomes: Vec<StudyOutcome> = (0..studies as u64)
-        .into_par_iter()
-        .map(|k| run_study(design, first_seed + k))
-        .collect::<anyhow::Result<_>>()?;
+    let pool = rayon::ThreadPoolBuilder::new()
+        .stack_size(STUDY_WORKER_STACK)
+        .build()?;
+    let outcomes: Vec<StudyOutcome> = pool.install(|| {
+        (0..studies as u64)
+            .into_par_iter()
+            .map(|k| run_study(design, first_seed + k))
+            .collect::<anyhow::Result<_>>()
+    })?;
     let mut t = Tally::default();
     for o in &outcomes {
         t.add(o);

@@ -11,15 +11,17 @@
 //! * the surrogate mean is over the pseudo-pairs that have a value (`n_pseudo`).
 //!
 //! p-value (Phipson & Smyth 2010): p = (1 + #{k : T*_k ≥ T}) / (K + 1). When the draws are
-//! the full enumeration of admissible re-pairings, the same formula is the exact p: the
-//! rank of the real pairing within the set made of itself and the K re-pairings, which
-//! under H0 are exchangeable with it. Two-sided: |T*_k − mean T*| ≥ |T − mean T*|.
-//! "Exact" means free of Monte Carlo error; the size of the test still rests on that
-//! exchangeability. Re-pairings that never re-use a real pair are not a group of
-//! relabellings, so it holds only approximately: when pair values carry member effects
+//! the full enumeration of the reference set without the real pairing itself, the same
+//! formula is the exact p: the rank of the real pairing within the set made of itself and
+//! the K re-pairings, which under H0 are exchangeable with it. Two-sided:
+//! |T*_k − mean T*| ≥ |T − mean T*|. "Exact" means free of Monte Carlo error; the size of
+//! the test still rests on that exchangeability. The default reference set (re-pairings
+//! that may keep real pairs) contains the real pairing; re-pairings that never re-use a real
+//! pair do not, so there it holds only approximately: when pair values carry member effects
 //! plus independent noise, T*_k centres on the pseudo-pair values and spreads less than T
-//! does, and the test is slightly liberal for few dyads (see tests/calibration.rs:
-//! about 0.058 at 16 dyads and α = 0.05; nominal when fixed points are allowed).
+//! does, and the test is liberal for few dyads (this module's tests/calibration.rs: about
+//! 0.058 at 16 dyads and α = 0.05 on simulated matrices, nominal when fixed points are
+//! allowed; the integration test tests/calibration.rs measures whole studies).
 
 use super::correction::permutation_p;
 use super::layout::Prepared;

@@ -209,7 +209,7 @@ pub struct InferenceConfig {
 pub struct Draws<'a> {
     pub pairs: &'a [(u32, u32)],
     pub n_dyads: usize,
-    /// The blocks are the full enumeration of admissible re-pairings (the real pairing
+    /// The blocks are the full enumeration of the reference set (the real pairing itself
     /// excluded), each exactly once.
     pub exact: bool,
 }

@@ -186,7 +186,7 @@ pub fn choose_method(plan: &PairPlan, requested: usize) -> (SamplerMethod, Strin
         (
             10f64.powf(count.log10 - log10_proposals(plan)),
             format!(
-                "exact: {} admissible / all within-stratum re-pairings",
+                "exact: {} in the reference set / all within-stratum proposals",
                 count_text(&count)
             ),
         )

@@ -215,7 +215,7 @@ impl fmt::Display for PlanAudit {
         let r = &self.repairings;
         writeln!(
             f,
-            "  reference set  {} ({})",
+            "  reference set  {}: {}",
             r.reference.name(),
             r.reference_description
         )?;
@@ -240,5 +240,36 @@ impl fmt::Display for PlanAudit {
             "  cost           {} pairs, {} pair-blocks, {} transforms",
             self.cost.pairs, self.cost.pair_blocks, self.cost.transforms
         )
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn set(text: Option<&str>, exact: bool, log10: f64) -> SetAudit {
+        SetAudit {
+            count: 10f64.powf(log10),
+            exact,
+            count_text: text.map(str::to_string),
+            method: String::new(),
+            log10,
+        }
+    }
+
+    // Source: decimal arithmetic: the 78-digit count 227·10^75 is 2.27 × 10^77. Up to 15
+    // digits are shown as they are, longer counts in scientific form from log10.
+    #[test]
+    fn long_counts_are_shown_in_scientific_form() {
+        assert_eq!(
+            set(Some("254016"), true, 254016f64.log10()).readable(),
+            "254016"
+        );
+        let digits = "227".to_string() + &"0".repeat(75);
+        assert_eq!(digits.len(), 78);
+        let long = set(Some(&digits), true, 2.27f64.log10() + 77.0);
+        assert_eq!(long.readable(), "2.27 × 10^77");
+        assert_eq!(set(None, false, 9.999_999).readable(), "about 1.00 × 10^10");
+        assert_eq!(set(None, false, 3.0).readable(), "about 1000");
     }
 }

@@ -3,9 +3,10 @@
 //! nominal level alpha = 0.05.
 //!
 //! Two reference sets are used:
-//! * re-pairings as uniform random derangements (drawn by rejection), the design of the
-//!   project: real pairs never re-used;
-//! * as a control, uniform random permutations with fixed points allowed. They form a
+//! * re-pairings as uniform random derangements (drawn by rejection): the pseudo-only
+//!   reference set, real pairs never re-used;
+//! * uniform random permutations with fixed points allowed (the default reference set when
+//!   no rule excludes a pair). They form a
 //!   group under which this model is invariant (column relabelling), so the Monte Carlo
 //!   test is exact by the randomisation principle and the max-statistic family-wise rate
 //!   is controlled exactly (Westfall & Young 1993; Nichols & Holmes 2002).
