@@ -9,7 +9,6 @@ use anyhow::Context;
 
 use crate::cli::RunArgs;
 use crate::engine::{Bars, Progress};
-use crate::inference::TestKind;
 use crate::pipeline::{self, Analysis, AnalysisOptions};
 use crate::report::manifest::{self, Manifest};
 use crate::report::outdir::{self, Staging};
@@ -200,13 +199,15 @@ fn print_summary(o: &Outcome, out: &Path) {
         a.study.config.inference.alpha
     );
     for r in &sig {
-        let kind = match r.test {
-            TestKind::Repairing => "repairing",
-            TestKind::DyadContrast => "dyad-contrast",
-        };
         println!(
             "    {:<14} {} · {} · {} · {}  excess {:+.4}  p_adj {:.4}",
-            kind, r.key.condition, r.key.chromophore, r.key.band, r.key.roi, r.excess, r.p_adj
+            r.test.to_string(),
+            r.key.condition,
+            r.key.chromophore,
+            r.key.band,
+            r.key.roi,
+            r.excess,
+            r.p_adj
         );
     }
     let csig = a

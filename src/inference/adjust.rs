@@ -44,7 +44,7 @@ pub(crate) fn adjust_repairing(
                 .unzip();
             if observed.iter().any(|z| z.is_infinite()) {
                 warnings.push(
-                    "a repairing null without spread was standardised to zero for maxstat"
+                    "a re-pairing null without spread was standardised to zero for maxstat"
                         .to_owned(),
                 );
             }

@@ -1,11 +1,11 @@
 //! Percentile bootstrap interval (Efron & Tibshirani 1993, ch. 13) for the excess of one
-//! cell, real mean minus surrogate mean, resampling dyads with replacement. Owns only the
+//! cell, real mean minus pseudo mean, resampling dyads with replacement. Owns only the
 //! resampling; the caller supplies the values and the seeded stream.
 //!
 //! Weighting rule: a resample gives dyad d the multiplicity w_d (how often it was drawn,
 //! Σ w_d = D). The resampled real mean is Σ w_d real_d / Σ w_d over dyads with a real
 //! value; a pseudo-pair (r, c) whose members belong to dyads d(r) ≠ d(c) enters the
-//! resampled surrogate mean with weight w_d(r) · w_d(c), i.e. once for every pair of
+//! resampled pseudo mean with weight w_d(r) · w_d(c), i.e. once for every pair of
 //! drawn copies of the two dyads. A resample in which either mean has zero total weight is
 //! discarded; the interval uses the remaining ones.
 

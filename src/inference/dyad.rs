@@ -18,14 +18,14 @@ use super::types::Alternative;
 pub(crate) struct DyadCell {
     pub real: Vec<f64>,
     /// Per dyad, mean of its listed pseudo pairs that have a value (NaN if none).
-    pub surrogate: Vec<f64>,
-    pub n_surrogate: Vec<usize>,
-    /// Per dyad, d_i = real_i − surrogate_i (NaN unless both exist).
+    pub pseudo: Vec<f64>,
+    pub n_pseudo: Vec<usize>,
+    /// Per dyad, d_i = real_i − pseudo_i (NaN unless both exist).
     pub diff: Vec<f64>,
-    /// Distinct pseudo pairs behind the surrogate means of the dyads with a d_i.
+    /// Distinct pseudo pairs behind the pseudo means of the dyads with a d_i.
     pub n_pseudo_used: usize,
     pub real_mean: f64,
-    pub surrogate_mean: f64,
+    pub pseudo_mean: f64,
     /// Mean of the d_i.
     pub excess: f64,
     pub test: TTest,
@@ -51,18 +51,18 @@ pub(crate) fn dyad_cell(
     alpha: f64,
 ) -> DyadCell {
     let real = real_values(values, prep);
-    let mut surrogate = Vec::with_capacity(prep.n_dyads);
-    let mut n_surrogate = Vec::with_capacity(prep.n_dyads);
+    let mut pseudo = Vec::with_capacity(prep.n_dyads);
+    let mut n_pseudo = Vec::with_capacity(prep.n_dyads);
     for list in &prep.dyad_pseudo {
         let vals: Vec<f64> = list
             .iter()
             .map(|&i| values[i])
             .filter(|v| present(*v))
             .collect();
-        n_surrogate.push(vals.len());
-        surrogate.push(mean(&vals));
+        n_pseudo.push(vals.len());
+        pseudo.push(mean(&vals));
     }
-    let diff: Vec<f64> = real.iter().zip(&surrogate).map(|(r, s)| r - s).collect();
+    let diff: Vec<f64> = real.iter().zip(&pseudo).map(|(r, s)| r - s).collect();
 
     let mut used = vec![false; values.len()];
     let mut reals = Vec::new();
@@ -74,7 +74,7 @@ pub(crate) fn dyad_cell(
         }
         ds.push(d);
         reals.push(real[i]);
-        surrs.push(surrogate[i]);
+        surrs.push(pseudo[i]);
         for &c in &prep.dyad_pseudo_canonical[i] {
             if present(values[c]) {
                 used[c] = true;
@@ -95,12 +95,12 @@ pub(crate) fn dyad_cell(
     };
     DyadCell {
         real,
-        surrogate,
-        n_surrogate,
+        pseudo,
+        n_pseudo,
         diff,
         n_pseudo_used,
         real_mean: mean(&reals),
-        surrogate_mean: mean(&surrs),
+        pseudo_mean: mean(&surrs),
         excess: mean(&ds),
         test: TTest {
             n: ds.len(),
@@ -261,7 +261,7 @@ mod tests {
         assert!((c.diff[1] - 0.45).abs() < 1e-15);
         // Dyad 2 has no real value.
         assert!(c.diff[2].is_nan());
-        assert_eq!(c.n_surrogate[2], 4);
+        assert_eq!(c.n_pseudo[2], 4);
         assert!(c.untestable.is_some());
         assert_eq!(c.test.n, 2);
         // Distinct pairs used by dyads 0 and 1: all six off-diagonal pairs.

@@ -10,7 +10,7 @@ pub(crate) struct Prepared {
     pub n_dyads: usize,
     /// Flat index of each dyad's real pair.
     pub real_idx: Vec<usize>,
-    /// The pseudo-pairs behind `surrogate_mean`: admissible, not the real pair of any dyad,
+    /// The pseudo-pairs behind `pseudo_mean`: admissible, not the real pair of any dyad,
     /// both members owned by a dyad; in peers mode each unordered pair once (row < col).
     /// Stored as (flat index, owning dyad of the row, owning dyad of the column).
     pub pseudo: Vec<(usize, usize, usize)>,

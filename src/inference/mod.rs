@@ -119,7 +119,7 @@ pub fn try_infer(
         } = outcome;
         if let Some(why) = &g.untestable {
             warnings.push(format!(
-                "repairing test untestable for cell {}: {why}",
+                "re-pairing test untestable for cell {}: {why}",
                 cell.key
             ));
         }
@@ -136,8 +136,8 @@ pub fn try_infer(
                 dyad: name.clone(),
                 key: cell.key.clone(),
                 real: dc.real[d],
-                surrogate_mean: dc.surrogate[d],
-                n_pseudo: dc.n_surrogate[d],
+                pseudo_mean: dc.pseudo[d],
+                n_pseudo: dc.n_pseudo[d],
             });
         }
         nulls.push(NullSummary {
@@ -197,7 +197,7 @@ fn input_warnings(prep: &Prepared, cells: &[CellMatrix], cfg: &InferenceConfig) 
     if prep.unowned > 0 {
         w.push(format!(
             "{} matrix rows/columns belong to no dyad; their pairs are left out of the \
-             surrogate means",
+             pseudo means",
             prep.unowned
         ));
     }
@@ -238,8 +238,8 @@ fn repairing_row(
         n_dyads: g.n_dyads,
         n_pseudo: g.n_pseudo,
         real_mean: g.real_mean,
-        surrogate_mean: g.surrogate_mean,
-        excess: g.real_mean - g.surrogate_mean,
+        pseudo_mean: g.pseudo_mean,
+        excess: g.real_mean - g.pseudo_mean,
         effect_size: g.effect_size,
         ci_low: ci.0,
         ci_high: ci.1,
@@ -268,7 +268,7 @@ fn dyad_row(
         n_dyads: t.n,
         n_pseudo: dc.n_pseudo_used,
         real_mean: dc.real_mean,
-        surrogate_mean: dc.surrogate_mean,
+        pseudo_mean: dc.pseudo_mean,
         excess: dc.excess,
         effect_size: t.dz,
         ci_low: t.ci_low,

@@ -1,6 +1,6 @@
 //! The re-pairing group test of one cell: the observed mean real-pair synchrony T against
 //! its null T*_k over the shared re-pairings, the Monte Carlo (or exact) permutation p, the
-//! standardised effect and the surrogate mean over all pseudo-pairs. Owns no correction
+//! standardised effect and the pseudo mean over all pseudo-pairs. Owns no correction
 //! and no resampling (see `correction` and `bootstrap`).
 //!
 //! Missing values (NaN or any non-finite value) drop out everywhere:
@@ -8,7 +8,7 @@
 //! * T*_k is the mean over the pairs of re-pairing k that have a value, whatever their
 //!   number; a re-pairing none of whose pairs has a value yields NaN and is left out, so K
 //!   in the p-value counts only re-pairings with at least one value;
-//! * the surrogate mean is over the pseudo-pairs that have a value (`n_pseudo`).
+//! * the pseudo mean is over the pseudo-pairs that have a value (`n_pseudo`).
 //!
 //! p-value (Phipson & Smyth 2010): p = (1 + #{k : T*_k ≥ T}) / (K + 1). When the draws are
 //! the full enumeration of the reference set without the real pairing itself, the same
@@ -84,7 +84,7 @@ pub(crate) struct GroupTest {
     pub null_sd: f64,
     pub p: f64,
     pub effect_size: f64,
-    pub surrogate_mean: f64,
+    pub pseudo_mean: f64,
     pub n_pseudo: usize,
     /// Why the cell is not tested, if it is not.
     pub untestable: Option<String>,
@@ -142,7 +142,7 @@ pub(crate) fn group_test(values: &[f64], prep: &Prepared, alternative: Alternati
             n_pseudo += 1;
         }
     }
-    let surrogate_mean = if n_pseudo > 0 {
+    let pseudo_mean = if n_pseudo > 0 {
         surr_sum / n_pseudo as f64
     } else {
         f64::NAN
@@ -168,7 +168,7 @@ pub(crate) fn group_test(values: &[f64], prep: &Prepared, alternative: Alternati
         null_sd,
         p: f64::NAN,
         effect_size: f64::NAN,
-        surrogate_mean,
+        pseudo_mean,
         n_pseudo,
         untestable,
     };
@@ -230,7 +230,7 @@ mod tests {
         // Neither re-pairing reaches T: p = 1 / 3.
         assert_eq!(g.p, 1.0 / 3.0);
         // Surrogate mean over the six off-diagonal values = 2.1 / 6.
-        assert!((g.surrogate_mean - 0.35).abs() < 1e-15);
+        assert!((g.pseudo_mean - 0.35).abs() < 1e-15);
         assert_eq!(g.n_pseudo, 6);
     }
 

@@ -124,6 +124,8 @@ impl FromStr for FamilyAxis {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum TestKind {
+    /// The group test against re-pairings (written `re-pairing`).
+    #[serde(rename = "re-pairing")]
     Repairing,
     DyadContrast,
 }
@@ -131,7 +133,7 @@ pub enum TestKind {
 impl fmt::Display for TestKind {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         f.write_str(match self {
-            TestKind::Repairing => "repairing",
+            TestKind::Repairing => "re-pairing",
             TestKind::DyadContrast => "dyad-contrast",
         })
     }
@@ -232,7 +234,7 @@ pub struct ResultRow {
     pub n_dyads: usize,
     pub n_pseudo: usize,
     pub real_mean: f64,
-    pub surrogate_mean: f64,
+    pub pseudo_mean: f64,
     pub excess: f64,
     pub effect_size: f64,
     pub ci_low: f64,
@@ -278,7 +280,7 @@ pub struct DyadRow {
     pub dyad: String,
     pub key: CellKey,
     pub real: f64,
-    pub surrogate_mean: f64,
+    pub pseudo_mean: f64,
     pub n_pseudo: usize,
 }
 

@@ -38,7 +38,7 @@ pub struct ResultLine {
     pub n_dyads: usize,
     pub n_pseudo: usize,
     pub real_mean: f64,
-    pub surrogate_mean: f64,
+    pub pseudo_mean: f64,
     pub excess: f64,
     pub effect_size: f64,
     pub ci_low: f64,

@@ -316,7 +316,7 @@ fn row_open(significant: bool) -> &'static str {
 const SIG_LEGEND: &str = "<p class=\"legend\">Sig. ✓ yes: significant, i.e. the adjusted p-value \
 is below the α stated in the methods; such rows are also set in bold. p: unadjusted \
 p-value; p adj.: after the correction named in the header or the row. CI: two-sided (1 − α) interval, a \
-percentile bootstrap over dyads for <em>repairing</em> and a t interval for the dyad-level \
+percentile bootstrap over dyads for <em>re-pairing</em> and a t interval for the dyad-level \
 tests. –: no value.</p>\n";
 
 fn section_results(out: &mut String, results: &[ResultLine]) {
@@ -379,7 +379,7 @@ fn section_results(out: &mut String, results: &[ResultLine]) {
             r.n_dyads,
             r.n_pseudo,
             num(r.real_mean),
-            num(r.surrogate_mean),
+            num(r.pseudo_mean),
             num(r.excess),
             num(r.effect_size),
             interval(r.ci_low, r.ci_high),
@@ -392,7 +392,7 @@ fn section_results(out: &mut String, results: &[ResultLine]) {
     out.push_str(SIG_LEGEND);
     out.push_str(
         "<p class=\"legend\">Excess: real mean minus pseudo-pair mean. Test \
-         <em>repairing</em>: observed mean of the real pairs T against its re-pairing \
+         <em>re-pairing</em>: observed mean of the real pairs T against its re-pairing \
          distribution T*, effect size (T − mean T*) / SD(T*); <em>dyad-contrast</em>: \
          one-sample t-test on each dyad's real value minus its pseudo-pair mean, effect size \
          Cohen's d<sub>z</sub>.</p>\n",
@@ -574,11 +574,11 @@ mod tests {
             chromophore: "hbo".into(),
             band: "slow".into(),
             roi: "prefrontal".into(),
-            test: "repairing".into(),
+            test: "re-pairing".into(),
             n_dyads: 12,
             n_pseudo: 120,
             real_mean: 0.41234,
-            surrogate_mean: 0.35,
+            pseudo_mean: 0.35,
             excess: 0.06234,
             effect_size: 0.8,
             ci_low: 0.01,

@@ -160,7 +160,7 @@ pub fn report_data(a: &Analysis, audit: &PlanAudit, warnings: &[String]) -> Repo
             n_dyads: r.n_dyads,
             n_pseudo: r.n_pseudo,
             real_mean: r.real_mean,
-            surrogate_mean: r.surrogate_mean,
+            pseudo_mean: r.pseudo_mean,
             excess: r.excess,
             effect_size: r.effect_size,
             ci_low: r.ci_low,
@@ -205,7 +205,7 @@ pub fn report_data(a: &Analysis, audit: &PlanAudit, warnings: &[String]) -> Repo
                 .dyads
                 .iter()
                 .filter(|d| d.key == n.key)
-                .map(|d| (d.dyad.clone(), d.real, d.surrogate_mean))
+                .map(|d| (d.dyad.clone(), d.real, d.pseudo_mean))
                 .collect();
             CellPlots {
                 label: cell_label(&n.key),
@@ -236,7 +236,7 @@ pub fn report_data(a: &Analysis, audit: &PlanAudit, warnings: &[String]) -> Repo
     }
 }
 
-/// The pairing matrix of the most significant repairing cell (the first cell when none is).
+/// The pairing matrix of the most significant re-pairing cell (the first cell when none is).
 fn matrix(a: &Analysis) -> Option<MatrixPlot> {
     let best = a
         .inference

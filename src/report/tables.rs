@@ -24,10 +24,7 @@ pub fn results(rows: &[ResultRow], path: &Path) -> Result<(), TableError> {
         .int("n_dyads", rows.iter().map(|r| r.n_dyads as i64).collect())
         .int("n_pseudo", rows.iter().map(|r| r.n_pseudo as i64).collect())
         .float("real_mean", rows.iter().map(|r| r.real_mean).collect())
-        .float(
-            "surrogate_mean",
-            rows.iter().map(|r| r.surrogate_mean).collect(),
-        )
+        .float("pseudo_mean", rows.iter().map(|r| r.pseudo_mean).collect())
         .float("excess", rows.iter().map(|r| r.excess).collect())
         .float("effect_size", rows.iter().map(|r| r.effect_size).collect())
         .float("ci_low", rows.iter().map(|r| r.ci_low).collect())
@@ -100,10 +97,7 @@ pub fn dyads(rows: &[DyadRow], path: &Path) -> Result<(), TableError> {
         .text("band", rows.iter().map(|r| r.key.band.clone()).collect())
         .text("roi", rows.iter().map(|r| r.key.roi.clone()).collect())
         .float("real", rows.iter().map(|r| r.real).collect())
-        .float(
-            "surrogate_mean",
-            rows.iter().map(|r| r.surrogate_mean).collect(),
-        )
+        .float("pseudo_mean", rows.iter().map(|r| r.pseudo_mean).collect())
         .int("n_pseudo", rows.iter().map(|r| r.n_pseudo as i64).collect());
     write_table(&t, path)
 }

@@ -92,7 +92,7 @@ fn untestable_cell_is_flagged_and_left_out_of_its_family() {
     assert!(
         out.warnings
             .iter()
-            .any(|w| w.contains("repairing") && w.contains("roi=ifg")),
+            .any(|w| w.contains("re-pairing") && w.contains("roi=ifg")),
         "{:?}",
         out.warnings
     );

@@ -1,5 +1,5 @@
 //! Exact enumeration: on tiny hand-built studies every admissible re-pairing is listed, and
-//! the p-values, surrogate means and dyad contrasts are recomputed by brute force here,
+//! the p-values, pseudo means and dyad contrasts are recomputed by brute force here,
 //! independently of the library.
 
 use super::super::*;
@@ -136,7 +136,7 @@ fn roles_four_dyads_exact_p_equals_brute_force_and_sampling_agrees() {
                 "exact p lies on the 1/10 lattice"
             );
             assert!((r.statistic - t).abs() < 1e-15);
-            assert!((r.surrogate_mean - surr).abs() < 1e-15);
+            assert!((r.pseudo_mean - surr).abs() < 1e-15);
             assert_eq!(out.nulls[0].null.len(), 9);
 
             // 10^5 uniform draws from the same nine re-pairings: #{T* >= T} is
@@ -225,7 +225,7 @@ fn peers_four_dyads_exact_p_equals_brute_force() {
         let out = infer(&layout, &[cell(v.clone())], &draws, &cfg);
         let r = &out.results[0];
         assert_eq!(r.p, brute_p(t, &null, false), "trial {trial}");
-        assert!((r.surrogate_mean - surr).abs() < 1e-15);
+        assert!((r.pseudo_mean - surr).abs() < 1e-15);
         assert_eq!(
             r.n_pseudo,
             28 - 4,
