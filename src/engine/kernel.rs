@@ -1,153 +1,205 @@
-//! The WTC kernel of one (block, band) geometry, on the coarse or the full time grid.
-//!
-//! Both grids expose the same three steps, which is all a slice needs: one member's data
-//! (computed once per member), one pair's band coherence from two members' data, and the
-//! per-worker scratch. Keeping the choice here leaves the slice loop unaware of it.
+//! What a slice needs from a synchrony measure: one member's data (computed once per member and
+//! channel), the values of pairs from two members' data, and per-worker scratch. WTC on the
+//! coarse grid, WTC on the every-sample grid and correlation are three kernels of one trait,
+//! so the slice loop is written once, is unaware of the measure, and needs no arm for data
+//! built by another kernel.
 
-use crate::spectral::Complex64;
+use std::ops::Range;
+
 use crate::spectral::coarse::{CoarsePlan, CoarseScratch, MemberNodes};
 use crate::spectral::coherence::{BandCoherence, CoherencePlan};
+use crate::spectral::correlation::{fisher_z, pearson};
 use crate::spectral::morlet::WaveletPlan;
-use crate::spectral::{ScaleGrid, Seconds};
-use crate::study::config::TimeGrid;
+use crate::spectral::{Complex64, ScaleGrid, Seconds};
 
-pub enum Kernel {
-    Coarse(CoarsePlan),
-    Full {
-        wavelet: WaveletPlan,
-        coherence: CoherencePlan,
-    },
+/// One (pair, channel pair) value of a block: WTC's block-mean R² with its phase sums, or
+/// correlation's Fisher z (phase sums zero).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct PairValue {
+    pub value: f64,
+    pub sum_cos: f64,
+    pub sum_sin: f64,
 }
 
-/// One member's cached data for one channel of a slice.
-pub enum MemberData {
-    Coarse(MemberNodes),
-    Full { w: Vec<Complex64>, p: Vec<f64> },
+impl From<BandCoherence> for PairValue {
+    fn from(b: BandCoherence) -> Self {
+        PairValue {
+            value: b.mean_r2(),
+            sum_cos: b.sum_cos,
+            sum_sin: b.sum_sin,
+        }
+    }
 }
 
-pub enum Scratch {
-    Coarse(Box<CoarseScratch>),
-    Full(Vec<Complex64>),
-}
+/// A synchrony measure of one (block, band) geometry.
+pub trait PairKernel: Sync {
+    /// One member's cached data for one channel of a slice.
+    type Member: Send + Sync;
+    /// Per-worker scratch, allocated once per worker.
+    type Scratch: Send;
 
-impl Kernel {
-    pub fn new(
-        time_grid: TimeGrid,
-        n: usize,
-        dt: Seconds,
-        omega0: f64,
-        grid: &ScaleGrid,
-        block: std::ops::Range<usize>,
-    ) -> Kernel {
-        match time_grid {
-            TimeGrid::Coarse => Kernel::Coarse(CoarsePlan::new(n, dt, omega0, grid, block)),
-            TimeGrid::Full => Kernel::Full {
-                wavelet: WaveletPlan::new(n, dt, omega0, &grid.scales),
-                coherence: CoherencePlan::new(n, dt, grid, block),
-            },
-        }
-    }
-
-    /// Points outside the cone of influence on the full grid: the block's weight.
-    pub fn n_points(&self) -> usize {
-        match self {
-            Kernel::Coarse(c) => c.n_points(),
-            Kernel::Full { coherence, .. } => coherence.n_points(),
-        }
-    }
-
-    /// Bytes one member's data take for one channel.
-    pub fn member_bytes(&self) -> u64 {
-        match self {
-            Kernel::Coarse(c) => c.member_bytes(),
-            Kernel::Full { wavelet, coherence } => super::bytes_per_member_channel(
-                wavelet.n_scales(),
-                wavelet.n_samples(),
-                coherence.power_len(),
-            ),
-        }
-    }
-
-    pub fn scratch(&self) -> Scratch {
-        match self {
-            Kernel::Coarse(c) => Scratch::Coarse(Box::new(c.scratch())),
-            Kernel::Full { wavelet, coherence } => {
-                Scratch::Full(vec![
-                    Complex64::new(0.0, 0.0);
-                    wavelet.scratch_len().max(coherence.scratch_len())
-                ])
-            }
-        }
-    }
-
-    pub fn member(&self, signal: &[f64], scratch: &mut Scratch) -> MemberData {
-        match (self, scratch) {
-            (Kernel::Coarse(c), Scratch::Coarse(s)) => MemberData::Coarse(c.member(signal, s)),
-            (Kernel::Full { wavelet, coherence }, Scratch::Full(s)) => {
-                let mut w =
-                    vec![Complex64::new(0.0, 0.0); wavelet.n_scales() * wavelet.n_samples()];
-                wavelet.transform_into(signal, &mut w, &mut s[..wavelet.scratch_len()]);
-                let mut p = vec![0.0; coherence.power_len()];
-                coherence.smoothed_power_into(&w, &mut p, &mut s[..coherence.scratch_len()]);
-                MemberData::Full { w, p }
-            }
-            _ => unreachable!("scratch built by another kernel"),
-        }
-    }
-
-    /// Band coherence of the pairs `(xs[i], ys[i])`, several at once where the grid allows.
-    pub fn coherence_many(
+    /// The block's weight in its condition value (points outside the cone of influence for
+    /// WTC, samples for correlation).
+    fn weight(&self) -> f64;
+    /// Bytes one member's data take for one channel (for the memory budget).
+    fn member_bytes(&self) -> u64;
+    fn scratch(&self) -> Self::Scratch;
+    /// One member's data from its segment (block plus context).
+    fn member(&self, segment: &[f64], scratch: &mut Self::Scratch) -> Self::Member;
+    /// Values of the pairs `(xs[i], ys[i])` into `out[i]`; up to
+    /// [`crate::spectral::coarse::GROUP`] at once. Each pair's value must not depend on the
+    /// others in the call.
+    fn pairs(
         &self,
-        xs: &[&MemberData],
-        ys: &[&MemberData],
-        scratch: &mut Scratch,
-    ) -> Vec<BandCoherence> {
-        if let (Kernel::Coarse(c), Scratch::Coarse(s)) = (self, &mut *scratch) {
-            let x: Vec<&MemberNodes> = xs.iter().map(|m| coarse_nodes(m)).collect();
-            let y: Vec<&MemberNodes> = ys.iter().map(|m| coarse_nodes(m)).collect();
-            let empty = BandCoherence {
-                sum_r2: 0.0,
-                n_points: 0,
+        xs: &[&Self::Member],
+        ys: &[&Self::Member],
+        out: &mut [PairValue],
+        scratch: &mut Self::Scratch,
+    );
+}
+
+/// WTC on the coarse time grid (the default): `spectral::coarse`.
+pub struct CoarseWtc(pub CoarsePlan);
+
+impl PairKernel for CoarseWtc {
+    type Member = MemberNodes;
+    type Scratch = Box<CoarseScratch>;
+
+    fn weight(&self) -> f64 {
+        self.0.n_points() as f64
+    }
+
+    fn member_bytes(&self) -> u64 {
+        self.0.member_bytes()
+    }
+
+    fn scratch(&self) -> Self::Scratch {
+        Box::new(self.0.scratch())
+    }
+
+    fn member(&self, segment: &[f64], scratch: &mut Self::Scratch) -> MemberNodes {
+        self.0.member(segment, scratch)
+    }
+
+    fn pairs(
+        &self,
+        xs: &[&MemberNodes],
+        ys: &[&MemberNodes],
+        out: &mut [PairValue],
+        scratch: &mut Self::Scratch,
+    ) {
+        let empty = BandCoherence {
+            sum_r2: 0.0,
+            n_points: 0,
+            sum_cos: 0.0,
+            sum_sin: 0.0,
+        };
+        let mut bands = vec![empty; xs.len()];
+        self.0.coherence_many(xs, ys, &mut bands, scratch);
+        for (o, b) in out.iter_mut().zip(bands) {
+            *o = b.into();
+        }
+    }
+}
+
+/// WTC at every sample (`time_grid = "full"`), the reference the coarse grid is tested against.
+pub struct FullWtc {
+    wavelet: WaveletPlan,
+    coherence: CoherencePlan,
+}
+
+impl FullWtc {
+    pub fn new(n: usize, dt: Seconds, omega0: f64, grid: &ScaleGrid, block: Range<usize>) -> Self {
+        FullWtc {
+            wavelet: WaveletPlan::new(n, dt, omega0, &grid.scales),
+            coherence: CoherencePlan::new(n, dt, grid, block),
+        }
+    }
+}
+
+/// A member's transform and its smoothed power on the every-sample grid.
+pub struct FullMember {
+    w: Vec<Complex64>,
+    p: Vec<f64>,
+}
+
+impl PairKernel for FullWtc {
+    type Member = FullMember;
+    type Scratch = Vec<Complex64>;
+
+    fn weight(&self) -> f64 {
+        self.coherence.n_points() as f64
+    }
+
+    fn member_bytes(&self) -> u64 {
+        super::bytes_per_member_channel(
+            self.wavelet.n_scales(),
+            self.wavelet.n_samples(),
+            self.coherence.power_len(),
+        )
+    }
+
+    fn scratch(&self) -> Self::Scratch {
+        let len = self.wavelet.scratch_len().max(self.coherence.scratch_len());
+        vec![Complex64::new(0.0, 0.0); len]
+    }
+
+    fn member(&self, segment: &[f64], s: &mut Self::Scratch) -> FullMember {
+        let (wavelet, coherence) = (&self.wavelet, &self.coherence);
+        let mut w = vec![Complex64::new(0.0, 0.0); wavelet.n_scales() * wavelet.n_samples()];
+        wavelet.transform_into(segment, &mut w, &mut s[..wavelet.scratch_len()]);
+        let mut p = vec![0.0; coherence.power_len()];
+        coherence.smoothed_power_into(&w, &mut p, &mut s[..coherence.scratch_len()]);
+        FullMember { w, p }
+    }
+
+    fn pairs(
+        &self,
+        xs: &[&FullMember],
+        ys: &[&FullMember],
+        out: &mut [PairValue],
+        s: &mut Self::Scratch,
+    ) {
+        let c = &self.coherence;
+        for ((o, x), y) in out.iter_mut().zip(xs).zip(ys) {
+            *o = c
+                .coherence(&x.w, &y.w, &x.p, &y.p, &mut s[..c.scratch_len()])
+                .into();
+        }
+    }
+}
+
+/// Pearson r over the block's samples (no context), as Fisher's z.
+pub struct Correlation {
+    /// The block inside a member's segment.
+    pub block: Range<usize>,
+}
+
+impl PairKernel for Correlation {
+    type Member = Vec<f64>;
+    type Scratch = ();
+
+    fn weight(&self) -> f64 {
+        self.block.len() as f64
+    }
+
+    fn member_bytes(&self) -> u64 {
+        (self.block.len() * std::mem::size_of::<f64>()) as u64
+    }
+
+    fn scratch(&self) {}
+
+    fn member(&self, segment: &[f64], _: &mut ()) -> Vec<f64> {
+        segment[self.block.clone()].to_vec()
+    }
+
+    fn pairs(&self, xs: &[&Vec<f64>], ys: &[&Vec<f64>], out: &mut [PairValue], _: &mut ()) {
+        for ((o, x), y) in out.iter_mut().zip(xs).zip(ys) {
+            *o = PairValue {
+                value: fisher_z(pearson(x, y)),
                 sum_cos: 0.0,
                 sum_sin: 0.0,
             };
-            let mut out = vec![empty; xs.len()];
-            c.coherence_many(&x, &y, &mut out, s);
-            return out;
         }
-        xs.iter()
-            .zip(ys)
-            .map(|(x, y)| self.coherence(x, y, scratch))
-            .collect()
-    }
-
-    pub fn coherence(
-        &self,
-        x: &MemberData,
-        y: &MemberData,
-        scratch: &mut Scratch,
-    ) -> BandCoherence {
-        match (self, x, y, scratch) {
-            (
-                Kernel::Coarse(c),
-                MemberData::Coarse(x),
-                MemberData::Coarse(y),
-                Scratch::Coarse(s),
-            ) => c.coherence(x, y, s),
-            (
-                Kernel::Full { coherence, .. },
-                MemberData::Full { w: wx, p: px },
-                MemberData::Full { w: wy, p: py },
-                Scratch::Full(s),
-            ) => coherence.coherence(wx, wy, px, py, &mut s[..coherence.scratch_len()]),
-            _ => unreachable!("member data or scratch built by another kernel"),
-        }
-    }
-}
-
-fn coarse_nodes(m: &MemberData) -> &MemberNodes {
-    match m {
-        MemberData::Coarse(n) => n,
-        MemberData::Full { .. } => unreachable!("member data built by another kernel"),
     }
 }

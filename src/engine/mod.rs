@@ -17,13 +17,14 @@ pub mod values;
 
 use rayon::prelude::*;
 
-use kernel::Kernel;
+use kernel::PairKernel;
 pub use progress::{Bars, Progress, Recorded, Silent};
 pub use values::{Acc, EngineTiming, Synchrony};
 
+use crate::spectral::coarse::CoarsePlan;
 use crate::spectral::{Complex64, band_scale_grid};
-use crate::study::Study;
-use crate::study::config::{ChannelPairs, Measure};
+use crate::study::config::{ChannelPairs, Measure, TimeGrid};
+use crate::study::{BlockWindow, Study};
 
 /// One pair to compute: its place in the pairing matrix and its two members.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -94,52 +95,79 @@ pub fn compute(
         let window = &study.conditions[cond].blocks[block_idx];
         let n = window.segment_len();
         for band in 0..syn.bands.len() {
-            let kernel = match cfg.measure {
-                Measure::Wtc => {
-                    let b = &study.config.bands[band];
-                    let grid = band_scale_grid(
-                        b.min_period_s,
-                        b.max_period_s,
-                        cfg.omega0,
-                        cfg.scales_per_octave,
-                    );
-                    let kernel = Kernel::new(
-                        cfg.time_grid,
-                        n,
-                        study.dt,
-                        cfg.omega0,
-                        &grid,
-                        window.block_in_segment(),
-                    );
-                    syn.weights[cb * syn.bands.len() + band] = kernel.n_points() as f64;
-                    Some(kernel)
-                }
-                Measure::Corr => {
-                    syn.weights[cb * syn.bands.len() + band] = window.length as f64;
-                    None
-                }
+            let geometry = || {
+                let b = &study.config.bands[band];
+                band_scale_grid(
+                    b.min_period_s,
+                    b.max_period_s,
+                    cfg.omega0,
+                    cfg.scales_per_octave,
+                )
             };
-            for chrom in 0..syn.chromophores.len() {
-                for group in &channel_groups {
-                    let ctx = slice::SliceContext {
-                        study,
-                        window,
-                        chromophore: chrom,
-                        channels: group,
-                        kernel: kernel.as_ref(),
-                        members_used: members_used as usize,
-                        memory_bytes: options.memory_bytes,
-                    };
-                    let contributions = slice::run(&ctx, pairs, progress)?;
-                    syn.timing.transforms_s += contributions.transform_s;
-                    syn.timing.pairs_s += contributions.pair_s;
-                    syn.add_slice(cb, chrom, band, &contributions);
+            let block = window.block_in_segment();
+            let run = Band {
+                study,
+                window,
+                block: cb,
+                band,
+                channel_groups: &channel_groups,
+                members_used: members_used as usize,
+                memory_bytes: options.memory_bytes,
+                pairs,
+                progress,
+            };
+            match (cfg.measure, cfg.time_grid) {
+                (Measure::Wtc, TimeGrid::Coarse) => {
+                    let plan = CoarsePlan::new(n, study.dt, cfg.omega0, &geometry(), block);
+                    run.slices(&kernel::CoarseWtc(plan), &mut syn)?;
                 }
+                (Measure::Wtc, TimeGrid::Full) => {
+                    let k = kernel::FullWtc::new(n, study.dt, cfg.omega0, &geometry(), block);
+                    run.slices(&k, &mut syn)?;
+                }
+                (Measure::Corr, _) => run.slices(&kernel::Correlation { block }, &mut syn)?,
             }
         }
     }
     progress.finish();
     Ok(syn)
+}
+
+/// One (block, band) of the work: every chromophore and channel group of it, with one kernel.
+struct Band<'a> {
+    study: &'a Study,
+    window: &'a BlockWindow,
+    /// Index into `Synchrony::blocks`.
+    block: usize,
+    band: usize,
+    channel_groups: &'a [Vec<usize>],
+    members_used: usize,
+    memory_bytes: u64,
+    pairs: &'a [PairRef],
+    progress: &'a dyn Progress,
+}
+
+impl Band<'_> {
+    fn slices<K: PairKernel>(&self, kernel: &K, syn: &mut Synchrony) -> Result<(), EngineError> {
+        syn.weights[self.block * syn.bands.len() + self.band] = kernel.weight();
+        for chrom in 0..syn.chromophores.len() {
+            for group in self.channel_groups {
+                let ctx = slice::SliceContext {
+                    study: self.study,
+                    window: self.window,
+                    chromophore: chrom,
+                    channels: group,
+                    members_used: self.members_used,
+                    memory_bytes: self.memory_bytes,
+                };
+                let contributions = slice::run(&ctx, kernel, self.pairs, self.progress)?;
+                syn.timing.transforms_s += contributions.transform_s;
+                syn.timing.pairs_s += contributions.pair_s;
+                syn.add_slice(self.block, chrom, self.band, &contributions);
+            }
+        }
+        Ok(())
+    }
 }
 
 /// Bytes one member's cached transform and smoothed power take for one channel of a slice.

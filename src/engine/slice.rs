@@ -11,10 +11,9 @@ use std::time::Instant;
 use super::progress::Progress;
 use rayon::prelude::*;
 
-use super::kernel::{Kernel, MemberData};
+use super::kernel::{PairKernel, PairValue};
 use super::{EngineError, PairRef, par_map_init};
 use crate::spectral::coarse::GROUP;
-use crate::spectral::correlation::{fisher_z, pearson};
 use crate::study::{BlockWindow, Study};
 
 pub struct SliceContext<'a> {
@@ -22,8 +21,6 @@ pub struct SliceContext<'a> {
     pub window: &'a BlockWindow,
     pub chromophore: usize,
     pub channels: &'a [usize],
-    /// `None` for correlation, which needs no transform.
-    pub kernel: Option<&'a Kernel>,
     pub members_used: usize,
     pub memory_bytes: u64,
 }
@@ -56,25 +53,15 @@ pub struct SliceResult {
     pub pair_s: f64,
 }
 
-pub fn run(
+pub fn run<K: PairKernel>(
     ctx: &SliceContext,
+    kernel: &K,
     pairs: &[PairRef],
     progress: &dyn Progress,
 ) -> Result<SliceResult, EngineError> {
     let nch = ctx.channels.len();
     let per_pair = nch * nch;
     let mut values = vec![MISSING; pairs.len() * per_pair];
-    let Some(kernel) = ctx.kernel else {
-        let clock = Instant::now();
-        correlation(ctx, pairs, &mut values, per_pair);
-        progress.advance(1, pairs.len() as u64);
-        return Ok(SliceResult {
-            per_pair,
-            values,
-            transform_s: 0.0,
-            pair_s: clock.elapsed().as_secs_f64(),
-        });
-    };
     let (mut transform_s, mut pair_s) = (0.0, 0.0);
     let per_member = kernel.member_bytes() * nch as u64;
     let cap = (ctx.memory_bytes / per_member.max(1)) as usize;
@@ -103,7 +90,7 @@ pub fn run(
             .flat_map(|&m| ctx.channels.iter().map(move |&c| (m, c)))
             .collect();
         let clock = Instant::now();
-        let caches: Vec<Option<MemberData>> = par_map_init(
+        let caches: Vec<Option<K::Member>> = par_map_init(
             &jobs,
             || kernel.scratch(),
             |scratch, &(m, c)| {
@@ -150,10 +137,12 @@ pub fn run(
                                 ys.push(y);
                             }
                         }
-                        let results = kernel.coherence_many(&xs, &ys, scratch);
-                        for (k, r) in lanes.into_iter().zip(results) {
+                        let mut results = [UNSET; GROUP];
+                        let results = &mut results[..xs.len()];
+                        kernel.pairs(&xs, &ys, results, scratch);
+                        for (k, r) in lanes.into_iter().zip(results.iter()) {
                             let slot = &mut out[k * per_pair + c];
-                            slot.value = r.mean_r2();
+                            slot.value = r.value;
                             slot.sum_cos = r.sum_cos;
                             slot.sum_sin = r.sum_sin;
                         }
@@ -177,6 +166,12 @@ pub fn run(
 
 const GIB: f64 = (1u64 << 30) as f64;
 
+const UNSET: PairValue = PairValue {
+    value: f64::NAN,
+    sum_cos: 0.0,
+    sum_sin: 0.0,
+};
+
 /// Side of the squares of the pairing matrix that are computed together.
 const LOCALITY: usize = 16;
 
@@ -196,39 +191,4 @@ fn tiles(pairs: &[PairRef], members_used: usize, cap: usize) -> Vec<Vec<usize>> 
             .push(i);
     }
     by_tile.into_values().collect()
-}
-
-/// Pearson r over the block samples (no context), as Fisher's z.
-fn correlation(
-    ctx: &SliceContext,
-    pairs: &[PairRef],
-    values: &mut [Contribution],
-    per_pair: usize,
-) {
-    let block = |m: usize, c: usize| -> Option<&[f64]> {
-        let signal = ctx.study.signal(m, c, ctx.chromophore)?;
-        let s = ctx.window.starts[m]?;
-        Some(&signal[s..s + ctx.window.length])
-    };
-    values
-        .par_chunks_mut(per_pair)
-        .zip(pairs.par_iter())
-        .for_each(|(out, p)| {
-            let combos = ctx
-                .channels
-                .iter()
-                .flat_map(|&ca| ctx.channels.iter().map(move |&cb| (ca, cb)));
-            for (slot, (ca, cb)) in out.iter_mut().zip(combos) {
-                let value = match (block(p.a, ca), block(p.b, cb)) {
-                    (Some(x), Some(y)) => fisher_z(pearson(x, y)),
-                    _ => f64::NAN,
-                };
-                *slot = Contribution {
-                    channel_a: ca,
-                    channel_b: cb,
-                    value,
-                    ..MISSING
-                };
-            }
-        });
 }
