@@ -10,6 +10,7 @@ pub mod cli;
 pub mod commands;
 pub mod demo;
 pub mod engine;
+pub mod human;
 pub mod inference;
 pub mod pairing;
 pub mod pipeline;

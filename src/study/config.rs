@@ -12,6 +12,7 @@ use std::path::Path;
 use serde::Serialize;
 use toml::Value;
 
+use super::layout::{self, ColumnMap, RecordingFormat};
 use super::problem::{Problem, Problems};
 use crate::pairing::Reference;
 
@@ -22,6 +23,10 @@ enum Kind {
     Number,
     Integer,
     TextList,
+    Bool,
+    /// A sub-table (`[inputs.columns]`, or an inline `{ hbo = "HbO" }`) with its own keys,
+    /// checked as strictly as a section.
+    Table(&'static [Key]),
 }
 
 impl Kind {
@@ -31,13 +36,46 @@ impl Kind {
             Kind::Number => "a number",
             Kind::Integer => "an integer",
             Kind::TextList => "an array of strings",
+            Kind::Bool => "true or false",
+            Kind::Table(_) => "a table",
         }
     }
 }
 
+/// A key of a section or sub-table, and the kind of value it holds.
+type Key = (&'static str, Kind);
+
 /// The schema: every section, whether it is an array of tables, and its keys.
 /// A section: its name, whether it is an array of tables, and its keys with their kinds.
-type Section = (&'static str, bool, &'static [(&'static str, Kind)]);
+type Section = (&'static str, bool, &'static [Key]);
+
+/// `[inputs.columns]`: every column name of nevermet's tables that a study may map to its own.
+const COLUMN_KEYS: &[Key] = &[
+    ("dyad", Kind::Text),
+    ("role", Kind::Text),
+    ("participant", Kind::Text),
+    ("recording", Kind::Text),
+    ("onset", Kind::Text),
+    ("duration", Kind::Text),
+    ("trial_type", Kind::Text),
+    ("channel", Kind::Text),
+    ("roi", Kind::Text),
+    ("status", Kind::Text),
+];
+
+/// `chromophore_labels`: how each chromophore is written in the recordings' column names.
+const CHROMOPHORE_KEYS: &[Key] = &[
+    ("hbo", Kind::Text),
+    ("hbr", Kind::Text),
+    ("hbt", Kind::Text),
+];
+
+/// `[inputs.recording_format]`: how a recording file names its columns.
+const RECORDING_FORMAT_KEYS: &[Key] = &[
+    ("time_column", Kind::Text),
+    ("column_pattern", Kind::Text),
+    ("chromophore_labels", Kind::Table(CHROMOPHORE_KEYS)),
+];
 
 /// Keys of earlier versions, with what replaced them, so an old study.toml gets a precise
 /// message instead of a nearest-key guess.
@@ -51,7 +89,13 @@ const SECTIONS: &[Section] = &[
     (
         "study",
         false,
-        &[("name", Kind::Text), ("description", Kind::Text)],
+        &[
+            ("name", Kind::Text),
+            ("description", Kind::Text),
+            ("conditions", Kind::TextList),
+            ("allow_missing_blocks", Kind::Bool),
+            ("allow_truncated_blocks", Kind::Bool),
+        ],
     ),
     (
         "inputs",
@@ -62,6 +106,9 @@ const SECTIONS: &[Section] = &[
             ("channels", Kind::Text),
             ("quality", Kind::Text),
             ("recordings", Kind::Text),
+            ("recording_pattern", Kind::Text),
+            ("columns", Kind::Table(COLUMN_KEYS)),
+            ("recording_format", Kind::Table(RECORDING_FORMAT_KEYS)),
         ],
     ),
     (
@@ -194,6 +241,12 @@ pub struct Inputs {
     pub channels: String,
     pub quality: Option<String>,
     pub recordings: String,
+    /// A recording's file name built from members-table columns, in place of a `recording`
+    /// column.
+    pub recording_pattern: Option<String>,
+    /// nevermet's column names → the names in the study's tables.
+    pub columns: ColumnMap,
+    pub recording_format: RecordingFormat,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -249,6 +302,13 @@ impl Inference {
 pub struct Config {
     pub name: String,
     pub description: Option<String>,
+    /// The conditions the events table must use, when the study lists them.
+    pub conditions: Option<Vec<String>>,
+    /// Dyads may lack blocks that other dyads have (those blocks are left out for them).
+    pub allow_missing_blocks: bool,
+    /// Durations of one block may differ across dyads by more than 10 % (every pair then
+    /// uses the shortest, cutting the end of the longer ones).
+    pub allow_truncated_blocks: bool,
     pub inputs: Inputs,
     pub pairing: Pairing,
     pub synchrony: Synchrony,
@@ -307,7 +367,6 @@ fn check_schema(root: &toml::Table, file: &Path, problems: &mut Problems) {
             );
             continue;
         };
-        let key_names: Vec<&str> = keys.iter().map(|k| k.0).collect();
         let tables: Vec<&toml::Table> = match (value, is_array) {
             (Value::Table(t), false) => vec![t],
             (Value::Array(items), true) => {
@@ -338,28 +397,61 @@ fn check_schema(root: &toml::Table, file: &Path, problems: &mut Problems) {
                 continue;
             }
         };
+        let shown = if *is_array {
+            format!("[[{name}]]")
+        } else {
+            format!("[{name}]")
+        };
         for table in tables {
-            for key in table.keys() {
-                if !key_names.contains(&key.as_str()) {
-                    let shown = if *is_array {
-                        format!("[[{name}]]")
-                    } else {
-                        format!("[{name}]")
-                    };
-                    if let Some((_, _, why)) =
-                        RETIRED.iter().find(|r| r.0 == name && r.1 == key.as_str())
-                    {
-                        problems.push(Problem::in_file(
-                            file,
-                            format!("key `{key}` in section {shown} was {why}"),
-                        ));
-                        continue;
-                    }
-                    problems.push(
-                        Problem::in_file(file, format!("unknown key `{key}` in section {shown}"))
-                            .hint(nearest_hint(key, &key_names)),
-                    );
+            check_keys(table, name, &shown, keys, file, problems);
+        }
+    }
+}
+
+/// Unknown keys of one table (a section, or a sub-table `path` of one), with the nearest valid
+/// key; sub-tables are walked with the same strictness.
+fn check_keys(
+    table: &toml::Table,
+    path: &str,
+    shown: &str,
+    keys: &[Key],
+    file: &Path,
+    problems: &mut Problems,
+) {
+    let key_names: Vec<&str> = keys.iter().map(|k| k.0).collect();
+    for (key, value) in table {
+        let Some((_, kind)) = keys.iter().find(|k| k.0 == key.as_str()) else {
+            if let Some((_, _, why)) = RETIRED.iter().find(|r| r.0 == path && r.1 == key.as_str()) {
+                problems.push(Problem::in_file(
+                    file,
+                    format!("key `{key}` in section {shown} was {why}"),
+                ));
+                continue;
+            }
+            problems.push(
+                Problem::in_file(file, format!("unknown key `{key}` in section {shown}"))
+                    .hint(nearest_hint(key, &key_names)),
+            );
+            continue;
+        };
+        if let Kind::Table(sub) = kind {
+            let sub_path = format!("{path}.{key}");
+            match value {
+                Value::Table(t) => {
+                    check_keys(t, &sub_path, &format!("[{sub_path}]"), sub, file, problems)
                 }
+                other => problems.push(
+                    Problem::in_file(
+                        file,
+                        format!(
+                            "key `{sub_path}` must be a table, found {} ({other})",
+                            other.type_str()
+                        ),
+                    )
+                    .hint(format!(
+                        "write it as a [{sub_path}] section, or inline as {{ key = \"value\" }}"
+                    )),
+                ),
             }
         }
     }
@@ -500,6 +592,166 @@ impl Reader<'_> {
         }
     }
 
+    fn boolean(&mut self, t: Option<&toml::Table>, section: &str, key: &str) -> Option<bool> {
+        let v = t?.get(key)?;
+        match v {
+            Value::Boolean(b) => Some(*b),
+            other => {
+                self.wrong_type(&format!("{section}.{key}"), Kind::Bool, other);
+                None
+            }
+        }
+    }
+
+    /// A sub-table such as `[inputs.columns]`; a value of another type was reported by the
+    /// schema walk.
+    fn sub_table<'t>(t: Option<&'t toml::Table>, key: &str) -> Option<&'t toml::Table> {
+        t?.get(key)?.as_table()
+    }
+
+    /// `[study] conditions`: non-empty, each label once, no two labels one spelling apart.
+    fn conditions(&mut self, study: Option<&toml::Table>) -> Option<Vec<String>> {
+        let list = self.text_list(study, "study", "conditions")?;
+        if list.is_empty() {
+            self.problems.push(
+                Problem::in_file(self.file, "key `study.conditions` is empty")
+                    .hint("list the conditions of the events table, or remove the key"),
+            );
+        }
+        for (i, a) in list.iter().enumerate() {
+            for b in &list[..i] {
+                if super::names::same_label(a, b) {
+                    self.problems.push(Problem::in_file(
+                        self.file,
+                        format!(
+                            "key `study.conditions` names \"{b}\" and \"{a}\", which differ only in case, spaces, hyphens or underscores"
+                        ),
+                    ));
+                }
+            }
+        }
+        Some(list)
+    }
+
+    fn recording_pattern(&mut self, inputs: Option<&toml::Table>) -> Option<String> {
+        let pattern = self.text(inputs, "inputs", "recording_pattern")?;
+        match layout::parse_pattern(&pattern) {
+            Err(why) => self.problems.push(
+                Problem::in_file(self.file, format!("key `inputs.recording_pattern` has {why}"))
+                    .hint("e.g. recording_pattern = \"{participant}_session1.csv\""),
+            ),
+            Ok(pieces) if layout::fields(&pieces).is_empty() => self.problems.push(
+                Problem::in_file(
+                    self.file,
+                    format!("key `inputs.recording_pattern` (\"{pattern}\") has no placeholder, so every member would get the same file"),
+                )
+                .hint("name members-table columns in braces, e.g. \"{participant}_session1.csv\""),
+            ),
+            Ok(_) => {}
+        }
+        let columns = Self::sub_table(inputs, "columns");
+        if columns.is_some_and(|c| c.contains_key("recording")) {
+            self.problems.push(
+                Problem::in_file(
+                    self.file,
+                    "both `inputs.recording_pattern` and `inputs.columns.recording` name the recordings",
+                )
+                .hint("keep one: the pattern builds the file name, the column holds it"),
+            );
+        }
+        Some(pattern)
+    }
+
+    fn columns(&mut self, inputs: Option<&toml::Table>) -> ColumnMap {
+        let t = Self::sub_table(inputs, "columns");
+        let mut map = ColumnMap::default();
+        for (ours, _) in layout::MAPPABLE {
+            let Some(theirs) = self.text(t, "inputs.columns", ours) else {
+                continue;
+            };
+            if theirs.trim().is_empty() {
+                self.problems.push(Problem::in_file(
+                    self.file,
+                    format!("key `inputs.columns.{ours}` is empty"),
+                ));
+                continue;
+            }
+            if let Some((other, _)) = map.0.iter().find(|(_, v)| **v == theirs) {
+                self.problems.push(Problem::in_file(
+                    self.file,
+                    format!(
+                        "keys `inputs.columns.{other}` and `inputs.columns.{ours}` both name the column `{theirs}`"
+                    ),
+                ));
+            }
+            map.0.insert((*ours).to_string(), theirs);
+        }
+        map
+    }
+
+    fn recording_format(&mut self, inputs: Option<&toml::Table>) -> RecordingFormat {
+        let section = "inputs.recording_format";
+        let t = Self::sub_table(inputs, "recording_format");
+        let mut format = RecordingFormat::default();
+        if let Some(time) = self.text(t, section, "time_column") {
+            if time.trim().is_empty() {
+                self.problems.push(Problem::in_file(
+                    self.file,
+                    format!("key `{section}.time_column` is empty"),
+                ));
+            }
+            format.time_column = time;
+        }
+        if let Some(pattern) = self.text(t, section, "column_pattern") {
+            let mut fields = match layout::parse_pattern(&pattern) {
+                Ok(p) => layout::fields(&p).into_iter().map(String::from).collect(),
+                Err(why) => {
+                    self.problems.push(Problem::in_file(
+                        self.file,
+                        format!("key `{section}.column_pattern` has {why}"),
+                    ));
+                    vec!["channel".to_string(), "chromophore".to_string()]
+                }
+            };
+            fields.sort();
+            if fields != ["channel", "chromophore"] {
+                self.problems.push(
+                    Problem::in_file(
+                        self.file,
+                        format!(
+                            "key `{section}.column_pattern` (\"{pattern}\") must hold {{channel}} and {{chromophore}} once each, found {}",
+                            if fields.is_empty() { "none".to_string() } else { fields.iter().map(|f| format!("{{{f}}}")).collect::<Vec<_>>().join(", ") }
+                        ),
+                    )
+                    .hint("e.g. column_pattern = \"{channel} {chromophore}\""),
+                );
+            }
+            format.column_pattern = pattern;
+        }
+        let labels_t = Self::sub_table(t, "chromophore_labels");
+        let label_section = format!("{section}.chromophore_labels");
+        for c in ["hbo", "hbr", "hbt"] {
+            let Some(label) = self.text(labels_t, &label_section, c) else {
+                continue;
+            };
+            if label.trim().is_empty() {
+                self.problems.push(Problem::in_file(
+                    self.file,
+                    format!("key `{label_section}.{c}` is empty"),
+                ));
+            } else if let Some((other, _)) =
+                format.chromophore_labels.iter().find(|(_, v)| **v == label)
+            {
+                self.problems.push(Problem::in_file(
+                    self.file,
+                    format!("chromophores {other} and {c} are both labelled \"{label}\" in `{label_section}`"),
+                ));
+            }
+            format.chromophore_labels.insert(c.to_string(), label);
+        }
+        format
+    }
+
     fn choice<T: Copy>(
         &mut self,
         t: Option<&toml::Table>,
@@ -555,6 +807,13 @@ impl Reader<'_> {
             .text(study, "study", "name")
             .unwrap_or_else(|| fallback_name.to_string());
         let description = self.text(study, "study", "description");
+        let conditions = self.conditions(study);
+        let allow_missing_blocks = self
+            .boolean(study, "study", "allow_missing_blocks")
+            .unwrap_or(false);
+        let allow_truncated_blocks = self
+            .boolean(study, "study", "allow_truncated_blocks")
+            .unwrap_or(false);
 
         let inputs_t = section("inputs");
         if inputs_t.is_none() {
@@ -569,6 +828,9 @@ impl Reader<'_> {
             channels: self.required_text(inputs_t, "inputs", "channels", None),
             quality: self.text(inputs_t, "inputs", "quality"),
             recordings: self.required_text(inputs_t, "inputs", "recordings", Some("recordings")),
+            recording_pattern: self.recording_pattern(inputs_t),
+            columns: self.columns(inputs_t),
+            recording_format: self.recording_format(inputs_t),
         };
 
         let p = section("pairing");
@@ -778,6 +1040,9 @@ impl Reader<'_> {
         Config {
             name,
             description,
+            conditions,
+            allow_missing_blocks,
+            allow_truncated_blocks,
             inputs,
             pairing,
             synchrony,
@@ -900,6 +1165,11 @@ channels = "channels.tsv"
 roles = ["caregiver", "child"]
 "#;
 
+    /// BASE with `extra` written at the end of its [inputs] section.
+    fn inputs_extra(extra: &str) -> String {
+        BASE.replace("[pairing]", &format!("{extra}\n[pairing]"))
+    }
+
     fn parse(text: &str) -> Result<Config, Problems> {
         parse_config(text, Path::new("study.toml"), "folder")
     }
@@ -971,6 +1241,81 @@ roles = ["caregiver", "child"]
         );
         let err = parse(&text).unwrap_err();
         assert_eq!(err.len(), 3, "{err}");
+    }
+
+    #[test]
+    fn a_lab_layout_is_read_from_its_sub_tables() {
+        let text = inputs_extra(&format!(
+            "recording_pattern = \"{{participant}}_session1.csv\"\n\
+             [inputs.columns]\ndyad = \"dyad_no\"\nonset = \"start_s\"\n\
+             [inputs.recording_format]\ntime_column = \"Time(s)\"\n\
+             column_pattern = \"{{channel}} {{chromophore}}\"\n\
+             chromophore_labels = {{ hbo = \"HbO\", hbr = \"HbR\" }}\n\
+             [study]\nconditions = [\"together\", \"apart\"]\nallow_missing_blocks = true\n"
+        ));
+        let c = parse(&text).unwrap();
+        let i = &c.inputs;
+        assert_eq!(
+            i.recording_pattern.as_deref(),
+            Some("{participant}_session1.csv")
+        );
+        assert_eq!(i.columns.in_files("dyad"), "dyad_no");
+        assert_eq!(i.columns.in_files("onset"), "start_s");
+        assert_eq!(i.columns.in_files("role"), "role");
+        assert_eq!(i.recording_format.time_column, "Time(s)");
+        assert_eq!(i.recording_format.column("S1-D1", "hbr"), "S1-D1 HbR");
+        assert_eq!(c.conditions, Some(vec!["together".into(), "apart".into()]));
+        assert!(c.allow_missing_blocks && !c.allow_truncated_blocks);
+        // The plain layout when nothing is mapped.
+        let plain = parse(BASE).unwrap();
+        assert!(plain.inputs.columns.0.is_empty() && plain.inputs.recording_format.is_plain());
+        assert_eq!(plain.conditions, None);
+    }
+
+    #[test]
+    fn sub_tables_are_checked_as_strictly_as_sections() {
+        let err = |extra: &str| parse(&inputs_extra(extra)).unwrap_err().to_string();
+        let e = err("[inputs.columns]\ndyd = \"dyad_no\"\n");
+        assert!(
+            e.contains("unknown key `dyd` in section [inputs.columns]"),
+            "{e}"
+        );
+        assert!(e.contains("did you mean `dyad`?"), "{e}");
+        let e = err("[inputs.recording_format]\ntime_colum = \"t\"\n");
+        assert!(
+            e.contains("unknown key `time_colum` in section [inputs.recording_format]"),
+            "{e}"
+        );
+        assert!(e.contains("did you mean `time_column`?"), "{e}");
+        let e = err("[inputs.recording_format]\nchromophore_labels = { hb0 = \"HbO\" }\n");
+        assert!(
+            e.contains("unknown key `hb0` in section [inputs.recording_format.chromophore_labels]"),
+            "{e}"
+        );
+        assert!(e.contains("did you mean `hbo`?"), "{e}");
+        let e = err("columns = \"dyad_no\"\n");
+        assert!(e.contains("key `inputs.columns` must be a table"), "{e}");
+        let e = err("[inputs.columns]\ndyad = 3\n");
+        assert!(
+            e.contains("key `inputs.columns.dyad` must be a string"),
+            "{e}"
+        );
+        let e = err("[inputs.recording_format]\ncolumn_pattern = \"{channel}_HbO\"\n");
+        assert!(
+            e.contains("must hold {channel} and {chromophore} once each"),
+            "{e}"
+        );
+        let e = err("recording_pattern = \"{participant_session1.csv\"\n");
+        assert!(e.contains("a `{` without its `}`"), "{e}");
+        let e = err("[inputs.columns]\nparticipant = \"pid\"\nrecording = \"pid\"\n");
+        assert!(e.contains("both name the column `pid`"), "{e}");
+        let e = err("[study]\nallow_missing_blocks = \"yes\"\n");
+        assert!(
+            e.contains("key `study.allow_missing_blocks` must be true or false"),
+            "{e}"
+        );
+        let e = err("[study]\nconditions = [\"free play\", \"free_play\"]\n");
+        assert!(e.contains("differ only in case"), "{e}");
     }
 
     #[test]

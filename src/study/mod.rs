@@ -6,7 +6,10 @@
 //! then the checks that need all of them (NaN in a window, sampling rates, bands against the
 //! windows). A `Study` exists only when no problem remains, so later stages never re-check.
 
+pub mod conditions;
 pub mod config;
+pub mod layout;
+pub mod names;
 pub mod problem;
 pub mod recordings;
 pub mod summary;
@@ -46,7 +49,11 @@ pub struct Study {
     pub dt: f64,
     /// Every input file read, for the manifest's hashes.
     pub input_files: Vec<PathBuf>,
+    /// Warnings, then the notes of the allowances used (`[study] allow_*`), for the report
+    /// and the manifest.
     pub warnings: Vec<String>,
+    /// What the study's allowances let through, for the methods paragraph.
+    pub allowances: Vec<String>,
 }
 
 impl Study {
@@ -144,18 +151,37 @@ pub fn load_report(config_path: &Path) -> LoadReport {
     let channels_path = root.join(&inputs.channels);
     let recordings_dir = root.join(&inputs.recordings);
 
-    let (members, dyads) = match tables::read(&members_path, "members", &mut problems) {
-        Some(t) => tables::members(&t, &config, &mut problems),
+    let map = &inputs.columns;
+    let format = &inputs.recording_format;
+    let members_t = tables::read(
+        &members_path,
+        "members",
+        &map.for_table(layout::Table::Members),
+        &mut problems,
+    );
+    let (members, dyads) = match &members_t {
+        Some(t) => tables::members(t, &config, &mut problems),
         None => (Vec::new(), Vec::new()),
     };
     input_files.push(members_path.clone());
-    let events = match tables::read(&events_path, "events", &mut problems) {
-        Some(t) => tables::events(&t, &dyads, &mut problems),
+    let events_t = tables::read(
+        &events_path,
+        "events",
+        &map.for_table(layout::Table::Events),
+        &mut problems,
+    );
+    let events = match &events_t {
+        Some(t) => tables::events(t, &dyads, &mut problems),
         None => Vec::new(),
     };
     input_files.push(events_path.clone());
-    let channels = match tables::read(&channels_path, "channels", &mut problems) {
-        Some(t) => tables::channels(&t, &mut problems),
+    let channels = match tables::read(
+        &channels_path,
+        "channels",
+        &map.for_table(layout::Table::Channels),
+        &mut problems,
+    ) {
+        Some(t) => tables::channels(&t, format.is_plain(), &mut problems),
         None => Vec::new(),
     };
     input_files.push(channels_path.clone());
@@ -163,7 +189,12 @@ pub fn load_report(config_path: &Path) -> LoadReport {
         Some(q) => {
             let path = root.join(q);
             input_files.push(path.clone());
-            match tables::read(&path, "quality", &mut problems) {
+            match tables::read(
+                &path,
+                "quality",
+                &map.for_table(layout::Table::Quality),
+                &mut problems,
+            ) {
                 Some(t) => tables::quality(&t, &members, &channels, &mut problems),
                 None => Vec::new(),
             }
@@ -177,6 +208,19 @@ pub fn load_report(config_path: &Path) -> LoadReport {
         }
     }
     let conditions = tables::condition_names(&events);
+    let events_complete = events_t
+        .as_ref()
+        .is_some_and(|t| t.height() == events.len());
+    let mut allowances = conditions::check(
+        &events,
+        events_complete,
+        &events_path,
+        map.in_files("trial_type"),
+        &dyads,
+        &config,
+        config_path,
+        &mut problems,
+    );
     for c in &config.contrasts {
         for cond in &c.conditions {
             if !events.is_empty() && !conditions.contains(cond) {
@@ -197,17 +241,17 @@ pub fn load_report(config_path: &Path) -> LoadReport {
     let chromophores = &config.synchrony.chromophores;
     let column_names: Vec<String> = channels
         .iter()
-        .flat_map(|ch| chromophores.iter().map(move |c| format!("{}.{c}", ch.name)))
+        .flat_map(|ch| chromophores.iter().map(|c| format.column(&ch.name, c)))
         .collect();
     let recordings = if !members.is_empty() && !channels.is_empty() {
-        recordings::read_all(
-            &members,
-            &members_path,
-            &recordings_dir,
-            &channels,
-            chromophores,
-            &mut problems,
-        )
+        let source = recordings::Source {
+            members_file: &members_path,
+            folder: &recordings_dir,
+            pattern: inputs.recording_pattern.as_deref(),
+            recording_column: map.in_files("recording"),
+            format,
+        };
+        recordings::read_all(&members, &source, &channels, chromophores, &mut problems)
     } else {
         Vec::new()
     };
@@ -230,7 +274,7 @@ pub fn load_report(config_path: &Path) -> LoadReport {
                             1.0 / first.dt
                         ),
                     )
-                    .column("time")
+                    .column(format.time_column.as_str())
                     .hint("resample every recording to one rate before analysis"),
                 );
             }
@@ -270,16 +314,22 @@ pub fn load_report(config_path: &Path) -> LoadReport {
     }
 
     let windows = if dt.is_finite() && !events.is_empty() {
+        let settings = windows::WindowSettings {
+            dt,
+            context_s: config.synchrony.context_s,
+            allow_truncated_blocks: config.allow_truncated_blocks,
+            duration_column: map.in_files("duration"),
+        };
         windows::build(
             &events,
             &events_path,
             &dyads,
             &members,
             &recordings,
-            dt,
-            config.synchrony.context_s,
+            &settings,
             &mut problems,
             &mut warnings,
+            &mut allowances,
         )
     } else {
         Vec::new()
@@ -308,6 +358,7 @@ pub fn load_report(config_path: &Path) -> LoadReport {
         dt,
         &column_names,
     );
+    summary.allowances = allowances.clone();
     if !problems.is_empty() {
         return fail(problems, summary, warnings);
     }
@@ -330,7 +381,8 @@ pub fn load_report(config_path: &Path) -> LoadReport {
             conditions: windows,
             dt,
             input_files,
-            warnings: warnings.clone(),
+            warnings: warnings.iter().chain(&allowances).cloned().collect(),
+            allowances,
         }),
         summary,
         problems,
@@ -354,8 +406,8 @@ fn check_bands(
             problems.push(Problem::in_file(
                 file,
                 format!(
-                    "band \"{}\": min_period_s {} s is below the shortest period the sampling resolves ({nyquist_period} s)",
-                    band.name, band.min_period_s
+                    "band \"{}\": min_period_s {} s is below the shortest period the sampling resolves ({} s)",
+                    band.name, band.min_period_s, crate::human::seconds_at(nyquist_period, dt)
                 ),
             ));
         }
@@ -380,8 +432,8 @@ fn check_bands(
                                 band.max_period_s,
                                 b.block,
                                 cond.name,
-                                b.length as f64 * dt,
-                                b.context as f64 * dt
+                                crate::human::seconds_at(b.length as f64 * dt, dt),
+                                crate::human::seconds_at(b.context as f64 * dt, dt)
                             ),
                         )
                         .hint(format!("use a shorter max_period_s, or more context (a point needs {e_fold:.1} s of data on each side)")),

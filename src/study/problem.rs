@@ -11,6 +11,8 @@ use std::path::{Path, PathBuf};
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Problem {
     pub file: Option<PathBuf>,
+    /// The same problem in several files, reported once (see [`merge_across_files`]).
+    pub files: Vec<PathBuf>,
     /// 1-based data row (the header is not counted); the file line is `row + 1`.
     pub row: Option<usize>,
     pub column: Option<String>,
@@ -75,6 +77,25 @@ impl fmt::Display for Problem {
         if let Some(file) = &self.file {
             place.push(file.display().to_string());
         }
+        if !self.files.is_empty() {
+            const SHOWN: usize = 10;
+            let names: Vec<String> = self
+                .files
+                .iter()
+                .take(SHOWN)
+                .map(|f| f.display().to_string())
+                .collect();
+            let more = if self.files.len() > SHOWN {
+                format!(" and {} more", self.files.len() - SHOWN)
+            } else {
+                String::new()
+            };
+            place.push(format!(
+                "{} files ({}{more})",
+                self.files.len(),
+                names.join(", ")
+            ));
+        }
         if let Some(row) = self.row {
             place.push(format!("row {row} (line {})", row + 1));
         }
@@ -88,7 +109,8 @@ impl fmt::Display for Problem {
             place.push(format!("member {m}"));
         }
         if let Some(t) = self.time {
-            place.push(format!("t = {t} s"));
+            // Rounded to a microsecond: a time computed as t0 + i·dt has a binary-float tail.
+            place.push(format!("t = {} s", crate::human::trimmed(t, 6)));
         }
         if !place.is_empty() {
             write!(f, "{}: ", place.join(", "))?;
@@ -132,6 +154,40 @@ impl fmt::Display for Problems {
     }
 }
 
+/// Problems that differ only in their file (and member) become one problem listing the files,
+/// so one cause repeated in every recording is read once. Order: first appearance.
+pub fn merge_across_files(list: Vec<Problem>) -> Vec<Problem> {
+    let mut out: Vec<Problem> = Vec::new();
+    for p in list {
+        if p.file.is_none() {
+            out.push(p);
+            continue;
+        }
+        let found = out.iter_mut().find(|q| {
+            (q.file.is_some() || !q.files.is_empty())
+                && q.file != p.file
+                && !q.files.contains(p.file.as_ref().expect("checked"))
+                && q.message == p.message
+                && q.hint == p.hint
+                && q.row == p.row
+                && q.column == p.column
+                && q.time == p.time
+                && q.dyad == p.dyad
+        });
+        match found {
+            Some(q) => {
+                if let Some(f) = q.file.take() {
+                    q.files.push(f);
+                    q.member = None;
+                }
+                q.files.extend(p.file);
+            }
+            None => out.push(p),
+        }
+    }
+    out
+}
+
 /// The error a failed load returns: the summary it could still build, and every problem.
 #[derive(Debug, thiserror::Error)]
 #[error("{} problem(s) in the study:\n{problems}", problems.len())]
@@ -142,6 +198,27 @@ pub struct StudyError {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn one_problem_in_many_files_is_reported_once() {
+        let each = |f: &str, m: &str| {
+            Problem::in_file(Path::new(f), "no `time` column")
+                .member(m)
+                .hint("columns found: `Time(s)`")
+        };
+        let merged = merge_across_files(vec![
+            each("a.csv", "d1:p1"),
+            each("b.csv", "d1:p2"),
+            Problem::in_file(Path::new("a.csv"), "something else"),
+            each("c.csv", "d2:p3"),
+        ]);
+        assert_eq!(merged.len(), 2);
+        assert_eq!(
+            merged[0].to_string(),
+            "3 files (a.csv, b.csv, c.csv): no `time` column; columns found: `Time(s)`"
+        );
+        assert_eq!(merged[1].to_string(), "a.csv: something else");
+    }
 
     #[test]
     fn display_names_place_problem_and_fix() {

@@ -1,15 +1,19 @@
 //! Recording files → per-member signals on a checked, uniform time axis.
 //!
-//! A recording is wide: a `time` column in seconds, then `<channel>.<chromophore>` columns.
+//! A recording is wide: a time column in seconds, then one column per channel and chromophore,
+//! named as `[inputs.recording_format]` says (`time` and `<channel>.<chromophore>` by default).
 //! Only the channels of the channels table and the configured chromophores are kept. A column
 //! that is entirely empty marks a bad channel; a NaN inside an analysis window is checked later,
-//! once the windows are known. Files are read in parallel, problems merged in member order.
+//! once the windows are known. Files are read in parallel, problems merged in member order, and
+//! a problem every file shares (a misnamed time column) is reported once with its files.
 
 use std::path::{Path, PathBuf};
 
 use rayon::prelude::*;
 
-use super::problem::{Problem, Problems};
+use super::layout::RecordingFormat;
+use super::names::{self, Nearest};
+use super::problem::{Problem, Problems, merge_across_files};
 use super::tables::{Channel, Member};
 use crate::table::{RawColumn, RawTable, read_numeric_table};
 
@@ -37,11 +41,21 @@ impl Recording {
     }
 }
 
+/// Where the recordings are and how their columns are named.
+pub struct Source<'a> {
+    pub members_file: &'a Path,
+    pub folder: &'a Path,
+    /// `[inputs] recording_pattern`, when it names the files instead of a `recording` column.
+    pub pattern: Option<&'a str>,
+    /// The members table's `recording` column as the file writes it.
+    pub recording_column: &'a str,
+    pub format: &'a RecordingFormat,
+}
+
 /// Reads every member's recording. Returns one entry per member (`None` when unreadable).
 pub fn read_all(
     members: &[Member],
-    members_file: &Path,
-    folder: &Path,
+    source: &Source,
     channels: &[Channel],
     chromophores: &[String],
     problems: &mut Problems,
@@ -50,38 +64,44 @@ pub fn read_all(
         .par_iter()
         .map(|m| {
             let mut p = Problems::default();
-            let rec = read_one(m, members_file, folder, channels, chromophores, &mut p);
+            let rec = read_one(m, source, channels, chromophores, &mut p);
             (rec, p)
         })
         .collect();
     let mut out = Vec::with_capacity(results.len());
+    let mut found = Vec::new();
     for (rec, p) in results {
-        problems.0.extend(p.0);
+        found.extend(p.0);
         out.push(rec);
     }
+    problems.0.extend(merge_across_files(found));
     out
 }
 
 fn read_one(
     m: &Member,
-    members_file: &Path,
-    folder: &Path,
+    source: &Source,
     channels: &[Channel],
     chromophores: &[String],
     problems: &mut Problems,
 ) -> Option<Recording> {
-    let path = folder.join(&m.recording);
+    let path = source.folder.join(&m.recording);
     if !path.is_file() {
-        problems.push(
-            Problem::in_file(
-                members_file,
-                format!("recording file not found: {}", path.display()),
-            )
-            .row(m.row)
-            .column("recording")
-            .member(&m.id)
-            .hint("paths in the members table are relative to [inputs] recordings"),
-        );
+        let mut p = Problem::in_file(
+            source.members_file,
+            format!("recording file not found: {}", path.display()),
+        )
+        .row(m.row)
+        .member(&m.id);
+        p = match source.pattern {
+            Some(pattern) => p.hint(format!(
+                "the name comes from [inputs] recording_pattern = \"{pattern}\", relative to [inputs] recordings"
+            )),
+            None => p
+                .column(source.recording_column)
+                .hint("paths in the members table are relative to [inputs] recordings"),
+        };
+        problems.push(p);
         return None;
     }
     let table = match read_numeric_table(&path) {
@@ -91,30 +111,25 @@ fn read_one(
             return None;
         }
     };
-    let Some(time_col) = table.column("time") else {
+    let time_name = source.format.time_column.as_str();
+    let Some(time_col) = table.column(time_name) else {
         problems.push(
-            Problem::in_file(&path, "no `time` column")
+            Problem::in_file(&path, format!("no `{time_name}` column"))
                 .member(&m.id)
-                .hint("the first column of a recording is `time`, in seconds"),
+                .hint(time_hint(time_name, &table.headers)),
         );
         return None;
     };
-    let time = numbers(&table, "time", time_col, problems)?;
-    let (t0, dt) = check_time(&path, &time, problems)?;
+    let time = numbers(&table, time_name, time_col, problems)?;
+    let (t0, dt) = check_time(&path, time_name, &time, problems)?;
     let mut signals = Vec::with_capacity(channels.len() * chromophores.len());
+    let mut missing: Vec<String> = Vec::new();
     let mut ok = true;
     for ch in channels {
         for chrom in chromophores {
-            let name = format!("{}.{}", ch.name, chrom);
+            let name = source.format.column(&ch.name, chrom);
             match table.column(&name) {
-                None => {
-                    ok = false;
-                    problems.push(
-                        Problem::in_file(&path, format!("channel column `{name}` is missing"))
-                            .member(&m.id)
-                            .hint("every channel of the channels table needs one column per chromophore; leave it empty to mark a bad channel"),
-                    );
-                }
+                None => missing.push(name),
                 Some(col) => match numbers(&table, &name, col, problems) {
                     None => ok = false,
                     Some(values) => {
@@ -125,6 +140,10 @@ fn read_one(
             }
         }
     }
+    if !missing.is_empty() {
+        problems.push(missing_channels(&path, &missing, &table.headers).member(&m.id));
+        ok = false;
+    }
     ok.then_some(Recording {
         path,
         t0,
@@ -132,6 +151,62 @@ fn read_one(
         n: time.len(),
         signals,
     })
+}
+
+/// What the file has instead of the time column, and the key that names it.
+fn time_hint(wanted: &str, headers: &[String]) -> String {
+    let list = names::found_list(headers, 8);
+    let set = "[inputs.recording_format] time_column";
+    match names::nearest_name(wanted, headers) {
+        Some(Nearest::Spelling(f) | Nearest::Close(f)) => {
+            format!("{list}; if `{f}` is the time in seconds, set {set} = \"{f}\" in study.toml")
+        }
+        None => format!("{list}; name the time column (seconds) with {set} in study.toml"),
+    }
+}
+
+/// One problem for every channel column a file lacks: which ones, what the file has, and,
+/// when the file's names differ only in case or separators, which key maps them.
+fn missing_channels(path: &Path, missing: &[String], headers: &[String]) -> Problem {
+    let quoted: Vec<String> = missing.iter().take(6).map(|c| format!("`{c}`")).collect();
+    let more = if missing.len() > 6 {
+        format!(" and {} more", missing.len() - 6)
+    } else {
+        String::new()
+    };
+    let message = match missing {
+        [one] => format!("channel column `{one}` is missing"),
+        _ => format!(
+            "{} channel columns are missing: {}{more}",
+            missing.len(),
+            quoted.join(", ")
+        ),
+    };
+    let mut near: Vec<(String, String)> = Vec::new();
+    let mut spelling = true;
+    for c in missing {
+        match names::nearest_name(c, headers) {
+            Some(Nearest::Spelling(f)) => near.push((c.clone(), f.to_string())),
+            Some(Nearest::Close(f)) => {
+                spelling = false;
+                near.push((c.clone(), f.to_string()));
+            }
+            None => spelling = false,
+        }
+    }
+    let list = names::found_list(headers, 8);
+    let hint = match near.first() {
+        Some((want, have)) if spelling && near.len() == missing.len() => format!(
+            "{list}; the file's names differ only in case or separators (`{have}` for `{want}`): set [inputs.recording_format] column_pattern and chromophore_labels in study.toml to match them"
+        ),
+        Some((want, have)) => format!(
+            "{list}; the nearest to `{want}` is `{have}`; every channel of the channels table needs one column per chromophore (leave it empty to mark a bad channel)"
+        ),
+        None => format!(
+            "{list}; every channel of the channels table needs one column per chromophore (leave it empty to mark a bad channel); [inputs.recording_format] column_pattern names them"
+        ),
+    };
+    Problem::in_file(path, message).hint(hint)
 }
 
 /// The column as numbers, empty cells as NaN; text in a cell is a problem (first one named,
@@ -187,7 +262,12 @@ fn numbers(
 }
 
 /// Checks the time axis: strictly increasing, uniform within [`SAMPLING_TOLERANCE`].
-fn check_time(path: &Path, time: &[f64], problems: &mut Problems) -> Option<(f64, f64)> {
+fn check_time(
+    path: &Path,
+    column: &str,
+    time: &[f64],
+    problems: &mut Problems,
+) -> Option<(f64, f64)> {
     if time.len() < 2 {
         problems.push(
             Problem::in_file(
@@ -197,7 +277,7 @@ fn check_time(path: &Path, time: &[f64], problems: &mut Problems) -> Option<(f64
                     time.len()
                 ),
             )
-            .column("time"),
+            .column(column),
         );
         return None;
     }
@@ -205,7 +285,7 @@ fn check_time(path: &Path, time: &[f64], problems: &mut Problems) -> Option<(f64
         problems.push(
             Problem::in_file(path, "empty time value")
                 .row(i + 1)
-                .column("time"),
+                .column(column),
         );
         return None;
     }
@@ -221,7 +301,7 @@ fn check_time(path: &Path, time: &[f64], problems: &mut Problems) -> Option<(f64
                     ),
                 )
                 .row(i + 1)
-                .column("time"),
+                .column(column),
             );
             return None;
         }
@@ -239,12 +319,14 @@ fn check_time(path: &Path, time: &[f64], problems: &mut Problems) -> Option<(f64
                 Problem::in_file(
                     path,
                     format!(
-                        "irregular sampling: interval of {d} s where the recording's interval is {dt_median} s (more than {}% off)",
+                        "irregular sampling: interval of {} s where the recording's interval is {} s (more than {}% off)",
+                        crate::human::trimmed(*d, 6),
+                        crate::human::trimmed(dt_median, 6),
                         SAMPLING_TOLERANCE * 100.0
                     ),
                 )
                 .row(i + 2)
-                .column("time")
+                .column(column)
                 .time(time[i + 1])
                 .hint("gaps and jitter must be repaired (interpolated) before analysis"),
             );

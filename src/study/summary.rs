@@ -21,6 +21,8 @@ pub struct Summary {
     pub rois: Vec<(String, Vec<String>)>,
     /// Member id and its bad channel columns.
     pub bad: Vec<(String, Vec<String>)>,
+    /// What the study's `[study] allow_*` keys let through.
+    pub allowances: Vec<String>,
 }
 
 impl Summary {
@@ -150,6 +152,9 @@ impl fmt::Display for Summary {
             for (m, cols) in &self.bad {
                 writeln!(f, "  bad channels   {m}: {}", cols.join(", "))?;
             }
+        }
+        for a in &self.allowances {
+            writeln!(f, "  allowed        {a}")?;
         }
         Ok(())
     }

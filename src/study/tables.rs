@@ -9,6 +9,8 @@ use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
 
 use super::config::{Config, PairingMode};
+use super::layout;
+use super::names::{self, Nearest};
 use super::problem::{Problem, Problems};
 use crate::table::{RawTable, read_table};
 
@@ -65,10 +67,29 @@ pub struct QualityMark {
     pub row: usize,
 }
 
-/// Reads a table, turning a read failure into a problem.
-pub fn read(path: &Path, what: &str, problems: &mut Problems) -> Option<RawTable> {
+/// Reads a table and gives its mapped columns nevermet's names, turning a read failure into a
+/// problem.
+pub fn read(
+    path: &Path,
+    what: &str,
+    columns: &[(&str, &str)],
+    problems: &mut Problems,
+) -> Option<RawTable> {
     match read_table(path) {
-        Ok(t) => Some(t),
+        Ok(mut t) => {
+            for (ours, theirs) in t.map_columns(columns) {
+                problems.push(
+                    Problem::in_file(
+                        path,
+                        format!(
+                            "has both a column `{theirs}` (mapped to `{ours}` by [inputs.columns]) and a column `{ours}`"
+                        ),
+                    )
+                    .hint("rename or remove one of them, so it is clear which one to read"),
+                );
+            }
+            Some(t)
+        }
         Err(e) => {
             problems.push(
                 Problem::new(e.to_string())
@@ -79,19 +100,47 @@ pub fn read(path: &Path, what: &str, problems: &mut Problems) -> Option<RawTable
     }
 }
 
-/// Pushes a problem for every required column the table lacks; true when all are present.
+/// Pushes a problem for every required column the table lacks, with the columns found and the
+/// nearest of them; true when all are present.
 pub fn require_columns(table: &RawTable, cols: &[&str], problems: &mut Problems) -> bool {
     let mut ok = true;
+    let found = table.written_headers();
     for c in cols {
-        if !table.has(c) {
-            ok = false;
-            problems.push(
-                Problem::in_file(&table.path, format!("missing required column `{c}`"))
-                    .hint(format!("columns found: {}", table.headers.join(", "))),
-            );
+        if table.has(c) {
+            continue;
         }
+        ok = false;
+        let written = table.written_name(c);
+        let what = if written == *c {
+            format!("missing required column `{c}`")
+        } else {
+            format!("missing column `{written}` (nevermet's `{c}`, as mapped in [inputs.columns])")
+        };
+        problems.push(Problem::in_file(&table.path, what).hint(column_hint(c, written, &found)));
     }
     ok
+}
+
+/// The columns found, and what to do about the nearest one.
+pub fn column_hint(ours: &str, written: &str, found: &[String]) -> String {
+    let list = names::found_list(found, 12);
+    let how = |f: &str| {
+        format!(
+            "rename it to `{written}` in the file, or map it in study.toml: [inputs.columns] {ours} = \"{f}\""
+        )
+    };
+    match names::nearest_name(written, found) {
+        Some(Nearest::Spelling(f)) => {
+            format!(
+                "{list}; `{f}` differs only in case or separators: {}",
+                how(f)
+            )
+        }
+        Some(Nearest::Close(f)) => format!("{list}; the nearest is `{f}`: {}", how(f)),
+        None => {
+            format!("{list}; map your own column in study.toml: [inputs.columns] {ours} = \"...\"")
+        }
+    }
 }
 
 fn text_cell(table: &RawTable, col: &str, row: usize) -> Option<String> {
@@ -110,7 +159,7 @@ fn required_cell(
         problems.push(
             Problem::in_file(&table.path, "empty cell")
                 .row(row + 1)
-                .column(col),
+                .column(table.written_name(col)),
         );
     }
     v
@@ -125,7 +174,7 @@ fn number_cell(table: &RawTable, col: &str, row: usize, problems: &mut Problems)
                 problems.push(
                     Problem::in_file(&table.path, "empty cell")
                         .row(row + 1)
-                        .column(col),
+                        .column(table.written_name(col)),
                 );
                 None
             }
@@ -135,7 +184,7 @@ fn number_cell(table: &RawTable, col: &str, row: usize, problems: &mut Problems)
                 problems.push(
                     Problem::in_file(&table.path, "empty cell")
                         .row(row + 1)
-                        .column(col),
+                        .column(table.written_name(col)),
                 );
                 None
             }
@@ -145,7 +194,7 @@ fn number_cell(table: &RawTable, col: &str, row: usize, problems: &mut Problems)
                     problems.push(
                         Problem::in_file(&table.path, format!("\"{s}\" is not a number"))
                             .row(row + 1)
-                            .column(col),
+                            .column(table.written_name(col)),
                     );
                     None
                 }
@@ -156,6 +205,65 @@ fn number_cell(table: &RawTable, col: &str, row: usize, problems: &mut Problems)
 
 const MEMBER_COLUMNS: &[&str] = &["dyad", "role", "participant", "recording"];
 
+/// Every placeholder of `[inputs] recording_pattern` must be a members-table column (named as
+/// after the mapping).
+fn pattern_fields_are_columns(
+    table: &RawTable,
+    pattern: &str,
+    pieces: &[layout::Piece],
+    problems: &mut Problems,
+) -> bool {
+    let mut ok = true;
+    for field in layout::fields(pieces) {
+        if table.has(field) {
+            continue;
+        }
+        ok = false;
+        let mut names: Vec<String> = table.headers.clone();
+        names.sort();
+        let near = match names::nearest_name(field, &names) {
+            Some(Nearest::Spelling(f) | Nearest::Close(f)) => format!("; did you mean `{{{f}}}`?"),
+            None => String::new(),
+        };
+        problems.push(
+            Problem::in_file(
+                &table.path,
+                format!(
+                    "`[inputs] recording_pattern` (\"{pattern}\") names `{{{field}}}`, which is not a column of the members table"
+                ),
+            )
+            .hint(format!(
+                "placeholders are members-table columns by nevermet's names after [inputs.columns] (columns: {}){near}",
+                table.headers.join(", ")
+            )),
+        );
+    }
+    ok
+}
+
+/// A member's recording file, built from the pattern and the row's cells.
+fn pattern_recording(
+    table: &RawTable,
+    pieces: &[layout::Piece],
+    r: usize,
+    problems: &mut Problems,
+) -> Option<String> {
+    match layout::fill(pieces, |f| text_cell(table, f, r)) {
+        Ok(name) => Some(name),
+        Err(field) => {
+            problems.push(
+                Problem::in_file(
+                    &table.path,
+                    "empty cell, needed by [inputs] recording_pattern",
+                )
+                .row(r + 1)
+                .column(table.written_name(&field)),
+            );
+            None
+        }
+    }
+}
+
 /// Members and dyads. In roles mode each dyad must have one member of each configured role;
 /// in peers mode exactly two members.
 pub fn members(
@@ -164,13 +272,28 @@ pub fn members(
     problems: &mut Problems,
 ) -> (Vec<Member>, Vec<Dyad>) {
     let roles_mode = config.pairing.mode == PairingMode::Roles;
-    let mut required = vec!["dyad", "participant", "recording"];
+    let pattern = config.inputs.recording_pattern.as_deref();
+    let mut required = vec!["dyad", "participant"];
+    if pattern.is_none() {
+        required.push("recording");
+    }
     if roles_mode {
         required.push("role");
     }
     if !require_columns(table, &required, problems) {
         return (Vec::new(), Vec::new());
     }
+    let pieces = match pattern.map(layout::parse_pattern) {
+        // A malformed pattern is reported with study.toml.
+        Some(Err(_)) => return (Vec::new(), Vec::new()),
+        Some(Ok(pieces)) => {
+            if !pattern_fields_are_columns(table, pattern.unwrap_or_default(), &pieces, problems) {
+                return (Vec::new(), Vec::new());
+            }
+            Some(pieces)
+        }
+        None => None,
+    };
     let path = &table.path;
     let attr_cols: Vec<&String> = table
         .headers
@@ -185,10 +308,14 @@ pub fn members(
     let mut seen_role: BTreeMap<(String, String), usize> = BTreeMap::new();
     for r in 0..table.height() {
         let row = r + 1;
+        let recording = match &pieces {
+            Some(pieces) => pattern_recording(table, pieces, r, problems),
+            None => required_cell(table, "recording", r, problems),
+        };
         let (Some(dyad), Some(participant), Some(recording)) = (
             required_cell(table, "dyad", r, problems),
             required_cell(table, "participant", r, problems),
-            required_cell(table, "recording", r, problems),
+            recording,
         ) else {
             continue;
         };
@@ -204,7 +331,7 @@ pub fn members(
             problems.push(
                 Problem::in_file(path, format!("duplicate member: participant {participant} appears twice in this dyad (first at row {first})"))
                     .row(row)
-                    .column("participant")
+                    .column(table.written_name("participant"))
                     .dyad(&dyad),
             );
             continue;
@@ -215,7 +342,7 @@ pub fn members(
                 problems.push(
                     Problem::in_file(path, format!("duplicate member: role {role} appears twice in this dyad (first at row {first})"))
                         .row(row)
-                        .column("role")
+                        .column(table.written_name("role"))
                         .dyad(&dyad),
                 );
                 continue;
@@ -224,7 +351,7 @@ pub fn members(
                 problems.push(
                     Problem::in_file(path, format!("role \"{role}\" is not one of pairing.roles"))
                         .row(row)
-                        .column("role")
+                        .column(table.written_name("role"))
                         .dyad(&dyad)
                         .hint(format!("pairing.roles = {:?}", config.pairing.roles)),
                 );
@@ -263,7 +390,7 @@ pub fn members(
                     path,
                     format!("pairing rule names attribute `{attr}`, which is not a column"),
                 )
-                .hint(format!("columns found: {}", table.headers.join(", "))),
+                .hint(attribute_hint(attr, &table.headers)),
             );
         }
     }
@@ -275,7 +402,7 @@ pub fn members(
                         path,
                         format!("no member has role \"{role}\", named in pairing.roles"),
                     )
-                    .column("role"),
+                    .column(table.written_name("role")),
                 );
             }
         }
@@ -311,7 +438,21 @@ pub fn members(
     (members, dyads)
 }
 
-/// Events, checked against the dyads.
+/// The columns found, and the nearest to a misspelt attribute.
+fn attribute_hint(attr: &str, headers: &[String]) -> String {
+    let list = names::found_list(headers, 12);
+    match names::nearest_name(attr, headers) {
+        Some(Nearest::Spelling(f) | Nearest::Close(f)) => {
+            format!(
+                "{list}; did you mean `{f}`? (pairing rules name attributes as the members table writes them)"
+            )
+        }
+        None => list,
+    }
+}
+
+/// Events, checked against the dyads. When the members table gave no dyads (its own problem
+/// is reported), no event is called an unknown dyad: that would only repeat the one cause.
 pub fn events(table: &RawTable, dyads: &[Dyad], problems: &mut Problems) -> Vec<Event> {
     if !require_columns(
         table,
@@ -349,16 +490,19 @@ pub fn events(table: &RawTable, dyads: &[Dyad], problems: &mut Problems) -> Vec<
             problems.push(
                 Problem::in_file(path, format!("duration {duration} s must be positive"))
                     .row(row)
-                    .column("duration")
+                    .column(table.written_name("duration"))
                     .dyad(&dyad),
             );
             continue;
         }
         let Some(&d) = index.get(dyad.as_str()) else {
+            if dyads.is_empty() {
+                continue;
+            }
             problems.push(
                 Problem::in_file(path, format!("unknown dyad \"{dyad}\""))
                     .row(row)
-                    .column("dyad")
+                    .column(table.written_name("dyad"))
                     .hint("every dyad in the events table must appear in the members table"),
             );
             continue;
@@ -387,7 +531,7 @@ pub fn condition_names(events: &[Event]) -> Vec<String> {
 }
 
 /// Channels in table order, each with its ROI.
-pub fn channels(table: &RawTable, problems: &mut Problems) -> Vec<Channel> {
+pub fn channels(table: &RawTable, plain_columns: bool, problems: &mut Problems) -> Vec<Channel> {
     if !require_columns(table, &["channel", "roi"], problems) {
         return Vec::new();
     }
@@ -400,11 +544,11 @@ pub fn channels(table: &RawTable, problems: &mut Problems) -> Vec<Channel> {
         ) else {
             continue;
         };
-        if name.contains('.') {
+        if plain_columns && name.contains('.') {
             problems.push(
                 Problem::in_file(&table.path, format!("channel name \"{name}\" contains a dot"))
                     .row(r + 1)
-                    .column("channel")
+                    .column(table.written_name("channel"))
                     .hint("recording columns are named <channel>.<chromophore>, so a channel name cannot contain '.'"),
             );
             continue;
@@ -413,7 +557,7 @@ pub fn channels(table: &RawTable, problems: &mut Problems) -> Vec<Channel> {
             problems.push(
                 Problem::in_file(&table.path, format!("channel \"{name}\" is listed twice"))
                     .row(r + 1)
-                    .column("channel"),
+                    .column(table.written_name("channel")),
             );
             continue;
         }
@@ -456,22 +600,22 @@ pub fn quality(
             text_cell(table, "recording", r),
         ) {
             (Some(p), _) => {
-                if !members.iter().any(|m| m.participant == p) {
+                if !members.is_empty() && !members.iter().any(|m| m.participant == p) {
                     problems.push(
                         Problem::in_file(&path, format!("unknown participant \"{p}\""))
                             .row(row)
-                            .column("participant"),
+                            .column(table.written_name("participant")),
                     );
                     continue;
                 }
                 QualityTarget::Participant(p)
             }
             (None, Some(rec)) => {
-                if !members.iter().any(|m| m.recording == rec) {
+                if !members.is_empty() && !members.iter().any(|m| m.recording == rec) {
                     problems.push(
                         Problem::in_file(&path, format!("unknown recording \"{rec}\""))
                             .row(row)
-                            .column("recording"),
+                            .column(table.written_name("recording")),
                     );
                     continue;
                 }
@@ -492,7 +636,7 @@ pub fn quality(
             problems.push(
                 Problem::in_file(&path, format!("unknown channel \"{channel}\""))
                     .row(row)
-                    .column("channel")
+                    .column(table.written_name("channel"))
                     .hint("channels must be listed in the channels table"),
             );
             continue;
@@ -507,7 +651,7 @@ pub fn quality(
                 problems.push(
                     Problem::in_file(&path, format!("status \"{other}\" must be good or bad"))
                         .row(row)
-                        .column("status"),
+                        .column(table.written_name("status")),
                 );
                 continue;
             }

@@ -13,9 +13,20 @@ use std::path::Path;
 use super::problem::{Problem, Problems};
 use super::recordings::Recording;
 use super::tables::{Dyad, Event, Member};
+use crate::human;
 
-/// Block durations that differ by more than this fraction across dyads get a warning.
-pub const DURATION_SPREAD_WARNING: f64 = 0.10;
+/// Block durations that differ by more than this fraction across dyads are an error unless
+/// the study allows truncated blocks.
+pub const DURATION_SPREAD: f64 = 0.10;
+
+/// What the window builder reads besides the tables and recordings.
+pub struct WindowSettings<'a> {
+    pub dt: f64,
+    pub context_s: f64,
+    pub allow_truncated_blocks: bool,
+    /// The events table's `duration` column as the file writes it, for messages.
+    pub duration_column: &'a str,
+}
 
 /// The study-wide window of one block.
 #[derive(Clone, Debug, PartialEq)]
@@ -63,11 +74,17 @@ pub fn build(
     dyads: &[Dyad],
     members: &[Member],
     recordings: &[Option<Recording>],
-    dt: f64,
-    context_s: f64,
+    settings: &WindowSettings,
     problems: &mut Problems,
     warnings: &mut Vec<String>,
+    allowances: &mut Vec<String>,
 ) -> Vec<ConditionWindows> {
+    let WindowSettings {
+        dt,
+        context_s,
+        allow_truncated_blocks,
+        duration_column,
+    } = *settings;
     let names = super::tables::condition_names(events);
     for (d, dyad) in dyads.iter().enumerate() {
         if !events.iter().any(|e| e.dyad == d) {
@@ -88,30 +105,46 @@ pub fn build(
         for list in per_dyad.values_mut() {
             list.sort_by(|a, b| a.onset.total_cmp(&b.onset));
         }
+        // Dyads with fewer blocks were refused or allowed by `conditions::check`.
         let n_blocks = per_dyad.values().map(Vec::len).max().unwrap_or(0);
-        for (d, dyad) in dyads.iter().enumerate() {
-            let have = per_dyad.get(&d).map_or(0, Vec::len);
-            if have < n_blocks {
-                warnings.push(format!(
-                    "dyad {} has {have} block(s) of \"{name}\" where others have {n_blocks}; its missing blocks are left out",
-                    dyad.id
-                ));
-            }
-        }
         let mut blocks = Vec::new();
         for k in 0..n_blocks {
             let evs: Vec<&Event> = per_dyad
                 .values()
                 .filter_map(|l| l.get(k).copied())
                 .collect();
-            let shortest = evs.iter().map(|e| e.duration).fold(f64::INFINITY, f64::min);
-            let longest = evs.iter().map(|e| e.duration).fold(0.0, f64::max);
-            if longest > shortest * (1.0 + DURATION_SPREAD_WARNING) {
-                warnings.push(format!(
-                    "block {} of \"{name}\": durations range from {shortest} s to {longest} s (more than {}% apart); every pair uses the shortest",
+            let shortest_e = evs
+                .iter()
+                .min_by(|a, b| a.duration.total_cmp(&b.duration))
+                .expect("a block has events");
+            let longest_e = evs
+                .iter()
+                .max_by(|a, b| a.duration.total_cmp(&b.duration))
+                .expect("a block has events");
+            let (shortest, longest) = (shortest_e.duration, longest_e.duration);
+            if longest > shortest * (1.0 + DURATION_SPREAD) {
+                let what = format!(
+                    "block {} of \"{name}\": durations range from {} s (row {}, dyad {}) to {} s (row {}, dyad {}), more than {}% apart; every pair uses the shortest, so the longer blocks lose their ends",
                     k + 1,
-                    DURATION_SPREAD_WARNING * 100.0
-                ));
+                    human::seconds_at(shortest, dt),
+                    shortest_e.row,
+                    dyads[shortest_e.dyad].id,
+                    human::seconds_at(longest, dt),
+                    longest_e.row,
+                    dyads[longest_e.dyad].id,
+                    DURATION_SPREAD * 100.0
+                );
+                if allow_truncated_blocks {
+                    allowances.push(format!(
+                        "{what} (allowed by [study] allow_truncated_blocks)"
+                    ));
+                } else {
+                    problems.push(
+                        Problem::in_file(events_file, what)
+                            .column(duration_column.to_string())
+                            .hint("make the durations equal, or say so in study.toml: [study] allow_truncated_blocks = true"),
+                    );
+                }
             }
             let length = ((shortest / dt) + 1e-9).floor() as usize;
             let mut starts = vec![None; members.len()];
@@ -130,12 +163,13 @@ pub fn build(
                             Problem::in_file(
                                 events_file,
                                 format!(
-                                    "block {} of \"{name}\" ({} s to {end} s) runs past the recording {} ({} s to {} s)",
+                                    "block {} of \"{name}\" ({} s to {} s) runs past the recording {} ({} s to {} s)",
                                     k + 1,
-                                    e.onset,
+                                    human::seconds_at(e.onset, dt),
+                                    human::seconds_at(end, dt),
                                     rec.path.display(),
-                                    rec.t0,
-                                    rec.t_end()
+                                    human::seconds_at(rec.t0, dt),
+                                    human::seconds_at(rec.t_end(), dt)
                                 ),
                             )
                             .row(e.row)
@@ -159,9 +193,10 @@ pub fn build(
             }
             if context < wanted {
                 warnings.push(format!(
-                    "block {} of \"{name}\": context shortened from {context_s} s to {} s, the most every recording has",
+                    "block {} of \"{name}\": context shortened from {} s to {} s, the most every recording has",
                     k + 1,
-                    context as f64 * dt
+                    human::seconds_at(context_s, dt),
+                    human::seconds_at(context as f64 * dt, dt)
                 ));
             }
             blocks.push(BlockWindow {

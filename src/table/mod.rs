@@ -221,6 +221,9 @@ pub struct RawTable {
     pub path: PathBuf,
     pub headers: Vec<String>,
     pub columns: Vec<RawColumn>,
+    /// A study's own names for this table's columns, as (nevermet's name, the file's name),
+    /// after [`RawTable::map_columns`]; every message names a column as the file writes it.
+    pub aliases: Vec<(String, String)>,
 }
 
 impl RawTable {
@@ -235,6 +238,43 @@ impl RawTable {
 
     pub fn has(&self, name: &str) -> bool {
         self.headers.iter().any(|h| h == name)
+    }
+
+    /// Gives columns nevermet's names: each (ours, theirs) renames the file's column `theirs`
+    /// to `ours`. Returns the mapped names that clash with a column of the file already
+    /// called `ours` (neither is renamed then, so nothing is read from the wrong column).
+    pub fn map_columns(&mut self, pairs: &[(&str, &str)]) -> Vec<(String, String)> {
+        let mut clashes = Vec::new();
+        for (ours, theirs) in pairs {
+            if ours != theirs && self.has(ours) && self.has(theirs) {
+                clashes.push((ours.to_string(), theirs.to_string()));
+                continue;
+            }
+            self.aliases.push((ours.to_string(), theirs.to_string()));
+            if let Some(h) = self.headers.iter_mut().find(|h| h == theirs) {
+                *h = ours.to_string();
+            }
+        }
+        clashes
+    }
+
+    /// The name the file gives a column of ours.
+    pub fn written_name<'a>(&'a self, ours: &'a str) -> &'a str {
+        self.aliases
+            .iter()
+            .find(|(o, _)| o == ours)
+            .map_or(ours, |(_, t)| t.as_str())
+    }
+
+    /// The headers as the file writes them.
+    pub fn written_headers(&self) -> Vec<String> {
+        let mut out = self.headers.clone();
+        for h in &mut out {
+            if let Some((_, t)) = self.aliases.iter().find(|(o, _)| o == h) {
+                *h = t.clone();
+            }
+        }
+        out
     }
 }
 
@@ -273,6 +313,7 @@ fn read_with(path: &Path, numeric: bool) -> Result<RawTable, TableError> {
                 path: path.to_path_buf(),
                 headers: t.headers,
                 columns: t.columns.into_iter().map(RawColumn::Number).collect(),
+                aliases: Vec::new(),
             });
         }
     }
@@ -327,6 +368,7 @@ fn from_frame(path: &Path, df: &DataFrame, numeric: bool) -> PolarsResult<RawTab
         path: path.to_path_buf(),
         headers,
         columns,
+        aliases: Vec::new(),
     })
 }
 
@@ -373,6 +415,24 @@ mod tests {
             text,
             "dyad\tvalue\tblock\treal\na\t0.25\t1\ttrue\nb\t\t2\tfalse\n"
         );
+    }
+
+    #[test]
+    fn mapped_columns_take_our_names_and_keep_theirs_for_messages() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("m.csv");
+        std::fs::write(&path, "pid,dyad_no,dyad\np1,3,x\n").unwrap();
+        let mut raw = read_table(&path).unwrap();
+        let clashes = raw.map_columns(&[("participant", "pid"), ("dyad", "dyad_no")]);
+        assert_eq!(clashes, vec![("dyad".to_string(), "dyad_no".to_string())]);
+        assert_eq!(raw.headers, vec!["participant", "dyad_no", "dyad"]);
+        assert_eq!(
+            raw.column("participant").unwrap().text(0).as_deref(),
+            Some("p1")
+        );
+        assert_eq!(raw.written_name("participant"), "pid");
+        assert_eq!(raw.written_name("role"), "role");
+        assert_eq!(raw.written_headers()[0], "pid");
     }
 
     #[test]
