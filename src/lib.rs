@@ -8,6 +8,7 @@
 pub mod calibration;
 pub mod cli;
 pub mod commands;
+pub mod console;
 pub mod demo;
 pub mod engine;
 pub mod human;
@@ -31,7 +32,7 @@ pub fn run(command: cli::Command) -> anyhow::Result<ExitCode> {
     use cli::Command;
     match command {
         Command::Demo(a) => commands::demo::demo(&a),
-        Command::Check(a) => commands::check::check(&a),
+        Command::Check(a) => Ok(commands::check::check(&a)),
         Command::Plan(a) => commands::plan::plan(&a),
         Command::Run(a) => commands::run::run(&a),
         Command::Replay(a) => commands::replay::replay(&a),

@@ -4,22 +4,28 @@ use std::process::ExitCode;
 
 use clap::Parser;
 
-/// True for the panic `print!` raises when stdout is a closed pipe (e.g. `| head`), which is
-/// not a failure of the command.
-fn is_closed_stdout(payload: &(dyn std::any::Any + Send)) -> bool {
+/// The stream whose closing (e.g. `| head`) made a `print!` or `eprint!` panic, if that is
+/// what the panic was. Commands print through `nevermet::console`, which never panics; this
+/// catches any print that does not.
+fn closed_stream(payload: &(dyn std::any::Any + Send)) -> Option<&'static str> {
     let text = payload
         .downcast_ref::<String>()
         .map(String::as_str)
         .or_else(|| payload.downcast_ref::<&str>().copied())
         .unwrap_or("");
-    text.contains("failed printing to stdout") && text.contains("Broken pipe")
+    if !text.contains("Broken pipe") {
+        return None;
+    }
+    ["stdout", "stderr"]
+        .into_iter()
+        .find(|s| text.contains(&format!("failed printing to {s}")))
 }
 
 fn main() -> ExitCode {
     let cli = nevermet::cli::Cli::parse();
     let default_hook = std::panic::take_hook();
     std::panic::set_hook(Box::new(move |info| {
-        if !is_closed_stdout(info.payload()) {
+        if closed_stream(info.payload()).is_none() {
             default_hook(info);
         }
     }));
@@ -29,10 +35,15 @@ fn main() -> ExitCode {
             if nevermet::is_broken_pipe(&err) {
                 return ExitCode::SUCCESS;
             }
-            eprintln!("nevermet: {err:#}");
+            nevermet::errln!("nevermet: {err:#}");
             ExitCode::from(nevermet::EXIT_FAILURE)
         }
-        Err(payload) if is_closed_stdout(payload.as_ref()) => ExitCode::SUCCESS,
-        Err(payload) => std::panic::resume_unwind(payload),
+        // Commands print their results last, so a closed stdout comes after the work is done;
+        // a closed stderr may have swallowed a problem, so it is not called a success.
+        Err(payload) => match closed_stream(payload.as_ref()) {
+            Some("stdout") => ExitCode::SUCCESS,
+            Some(_) => ExitCode::from(nevermet::EXIT_FAILURE),
+            None => std::panic::resume_unwind(payload),
+        },
     }
 }

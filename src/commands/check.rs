@@ -1,5 +1,7 @@
 //! `nevermet check`: the summary on stdout, warnings and every problem on stderr. A study is
-//! valid only when its inputs pass and every member keeps an admissible pseudo-partner.
+//! valid only when its inputs pass and every member keeps an admissible pseudo-partner; what
+//! an allowance of the study let through is listed in the summary, and a warning is printed
+//! before the verdict, never after it.
 
 use std::process::ExitCode;
 
@@ -7,11 +9,11 @@ use crate::cli::CheckArgs;
 use crate::pipeline;
 use crate::study;
 
-pub fn check(args: &CheckArgs) -> anyhow::Result<ExitCode> {
+pub fn check(args: &CheckArgs) -> ExitCode {
     let report = study::load_report(&args.study);
-    println!("{}", report.summary);
+    crate::outln!("{}", report.summary);
     for w in &report.warnings {
-        eprintln!("warning: {w}");
+        crate::errln!("warning: {w}");
     }
     let mut problems: Vec<String> = report.problems.iter().map(ToString::to_string).collect();
     if let Some(study) = &report.study
@@ -20,13 +22,16 @@ pub fn check(args: &CheckArgs) -> anyhow::Result<ExitCode> {
         problems.extend(pairing);
     }
     if problems.is_empty() {
-        println!("the study is valid");
-        Ok(ExitCode::SUCCESS)
-    } else {
-        eprintln!("{} problem(s):", problems.len());
-        for p in &problems {
-            eprintln!("  - {p}");
+        match report.warnings.len() {
+            0 => crate::outln!("the study is valid"),
+            n => crate::outln!("the study is valid, with {n} warning(s) above"),
         }
-        Ok(ExitCode::from(crate::EXIT_FAILURE))
+        ExitCode::SUCCESS
+    } else {
+        crate::errln!("{} problem(s):", problems.len());
+        for p in &problems {
+            crate::errln!("  - {p}");
+        }
+        ExitCode::from(crate::EXIT_FAILURE)
     }
 }

@@ -8,13 +8,13 @@ use crate::demo::{DemoMode, DemoOptions, write_demo};
 pub fn demo(args: &DemoArgs) -> anyhow::Result<ExitCode> {
     let opts = options(args);
     let summary = write_demo(&opts, &args.out)?;
-    println!(
+    crate::outln!(
         "wrote a synthetic study of {} dyads ({} members) to {}",
         summary.dyads,
         summary.members,
         args.out.display()
     );
-    println!(
+    crate::outln!(
         "next: nevermet check {}",
         args.out.join("study.toml").display()
     );

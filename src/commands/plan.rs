@@ -14,9 +14,9 @@ pub fn plan(args: &PlanArgs) -> anyhow::Result<ExitCode> {
     let plan = match pipeline::build_plan(&study) {
         Ok(p) => p,
         Err(problems) => {
-            eprintln!("{} pairing problem(s):", problems.len());
+            crate::errln!("{} pairing problem(s):", problems.len());
             for p in &problems {
-                eprintln!("  - {p}");
+                crate::errln!("  - {p}");
             }
             return Ok(ExitCode::from(crate::EXIT_FAILURE));
         }
@@ -26,7 +26,7 @@ pub fn plan(args: &PlanArgs) -> anyhow::Result<ExitCode> {
     let audit = PlanAudit::new(&study, &plan, &counts, &null);
     print!("{audit}");
     if let Some(w) = null.warning() {
-        eprintln!("warning: {w}");
+        crate::errln!("warning: {w}");
     }
     if let Some(out) = &args.out {
         std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;

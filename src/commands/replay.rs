@@ -34,9 +34,11 @@ pub fn replay(args: &ReplayArgs) -> anyhow::Result<ExitCode> {
     }
     if !changed.is_empty() {
         for c in &changed {
-            eprintln!("nevermet: {c}");
+            crate::errln!("nevermet: {c}");
         }
-        eprintln!("nevermet: replay needs the inputs exactly as they were; nothing was recomputed");
+        crate::errln!(
+            "nevermet: replay needs the inputs exactly as they were; nothing was recomputed"
+        );
         return Ok(ExitCode::from(crate::EXIT_FAILURE));
     }
     let threads = set_threads(args.threads.or(Some(m.threads)))?;
@@ -54,10 +56,10 @@ pub fn replay(args: &ReplayArgs) -> anyhow::Result<ExitCode> {
     for (rel, want) in &m.outputs {
         let got = outcome.manifest.outputs.get(rel);
         if got == Some(want) {
-            println!("OK       {rel}");
+            crate::outln!("OK       {rel}");
         } else {
             differs += 1;
-            println!("DIFFERS  {rel}");
+            crate::outln!("DIFFERS  {rel}");
         }
     }
     for rel in outcome
@@ -67,13 +69,13 @@ pub fn replay(args: &ReplayArgs) -> anyhow::Result<ExitCode> {
         .filter(|k| !m.outputs.contains_key(*k))
     {
         differs += 1;
-        println!("DIFFERS  {rel} (not in the manifest)");
+        crate::outln!("DIFFERS  {rel} (not in the manifest)");
     }
     if differs == 0 {
-        println!("replay: all {} output files identical", m.outputs.len());
+        crate::outln!("replay: all {} output files identical", m.outputs.len());
         Ok(ExitCode::SUCCESS)
     } else {
-        println!("replay: {differs} output file(s) differ");
+        crate::outln!("replay: {differs} output file(s) differ");
         Ok(ExitCode::from(crate::EXIT_DIFFERS))
     }
 }

@@ -137,8 +137,8 @@ pub fn run(args: &RunArgs) -> anyhow::Result<ExitCode> {
         Ok(o) => o,
         Err(e) => {
             if let Some(se) = e.downcast_ref::<study::StudyError>() {
-                eprintln!("nevermet: {} problem(s) in the study:", se.problems.len());
-                eprint!("{}", se.problems);
+                crate::errln!("nevermet: {} problem(s) in the study:", se.problems.len());
+                crate::err!("{}", se.problems);
                 return Ok(ExitCode::from(crate::EXIT_FAILURE));
             }
             return Err(e);
@@ -146,7 +146,7 @@ pub fn run(args: &RunArgs) -> anyhow::Result<ExitCode> {
     };
     let out = staging.commit()?;
     for w in &outcome.manifest.warnings {
-        eprintln!("warning: {w}");
+        crate::errln!("warning: {w}");
     }
     print_summary(&outcome, &out);
     Ok(ExitCode::SUCCESS)

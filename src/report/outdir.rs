@@ -37,7 +37,7 @@ pub fn install_signal_cleanup() {
             {
                 let _ = std::fs::remove_dir_all(p);
             }
-            eprintln!("nevermet: interrupted; no output was written");
+            crate::errln!("nevermet: interrupted; no output was written");
             std::process::exit(130);
         });
     });
