@@ -351,6 +351,7 @@ fn sample_report() -> ReportData {
         bootstrap: 2000,
         seed: 20261201,
         pseudo_only: false,
+        allowances: vec![],
     };
     ReportData {
         title: "Joint building study <pilot> & co".into(),

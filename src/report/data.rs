@@ -133,4 +133,7 @@ pub struct MethodsInput {
     pub seed: u64,
     /// True when the reference set is re-pairings of pseudo-pairs only (the approximate one).
     pub pseudo_only: bool,
+    /// What the study's `[study] allow_*` keys let through (missing or truncated blocks), one
+    /// note each, so the paper says so.
+    pub allowances: Vec<String>,
 }

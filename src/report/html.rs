@@ -393,9 +393,11 @@ fn section_results(out: &mut String, results: &[ResultLine]) {
     out.push_str(
         "<p class=\"legend\">Excess: real mean minus pseudo-pair mean. Test \
          <em>re-pairing</em>: observed mean of the real pairs T against its re-pairing \
-         distribution T*, effect size (T − mean T*) / SD(T*); <em>dyad-contrast</em>: \
-         one-sample t-test on each dyad's real value minus its pseudo-pair mean, effect size \
-         Cohen's d<sub>z</sub>.</p>\n",
+         distribution T*, effect size (T − mean T*) / SD(T*) (<code>effect_size_kind</code> \
+         <code>null_z</code> in results.tsv); <em>dyad-contrast</em>: one-sample t-test on each \
+         dyad's real value minus its pseudo-pair mean, effect size Cohen's d<sub>z</sub> \
+         (<code>d_z</code>). The two effect sizes are on different scales and are not \
+         comparable.</p>\n",
     );
     out.push_str("</section>\n");
 }

@@ -5,6 +5,7 @@
 //! the page escapes it. Must not compute statistics or look anything up.
 
 use super::data::MethodsInput;
+use crate::human;
 
 /// Shortest decimal form of a setting (`6`, `0.05`, `12.5`): the value as the user wrote it.
 fn plain(x: f64) -> String {
@@ -82,25 +83,26 @@ fn blocks(condition: &str, lengths: &[f64]) -> String {
     if n == 0 {
         return format!("\"{condition}\" no analysed blocks");
     }
-    let first = lengths[0];
-    if lengths.iter().all(|&l| l == first) {
+    // Lengths are sample counts times the sampling interval: written as a paper writes
+    // seconds, so 60.000000000000014 s reads 60 s and equal blocks are said once.
+    let first = human::seconds(lengths[0]);
+    if lengths.iter().all(|&l| human::seconds(l) == first) {
         let each = if n == 1 { "" } else { " each" };
         return format!(
-            "\"{condition}\" {} of {} s{each}",
+            "\"{condition}\" {} of {first} s{each}",
             plural(n, "block", "blocks"),
-            plain(first)
         );
     }
     if n <= 8 {
-        let list: Vec<String> = lengths.iter().map(|l| plain(*l)).collect();
+        let list: Vec<String> = lengths.iter().map(|l| human::seconds(*l)).collect();
         return format!("\"{condition}\" {n} blocks of {} s", join(&list));
     }
     let lo = lengths.iter().copied().fold(f64::INFINITY, f64::min);
     let hi = lengths.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     format!(
         "\"{condition}\" {n} blocks of {}–{} s",
-        plain(lo),
-        plain(hi)
+        human::seconds(lo),
+        human::seconds(hi)
     )
 }
 
@@ -116,8 +118,19 @@ fn window_sentence(m: &MethodsInput) -> String {
          shortest duration of that block across dyads){listed}, with {} s of recording kept \
          as context on each side so that real pairs and pseudo-pairs were computed on \
          identical windows.",
-        plain(m.context_s)
+        human::seconds(m.context_s)
     )
+}
+
+/// What the study's allowances let through, said in the paper's own words.
+fn allowance_sentence(m: &MethodsInput) -> Option<String> {
+    if m.allowances.is_empty() {
+        return None;
+    }
+    Some(format!(
+        "The study configuration explicitly allowed incomplete or unequal blocks: {}.",
+        m.allowances.join("; ")
+    ))
 }
 
 fn signal_sentence(m: &MethodsInput) -> String {
@@ -361,6 +374,7 @@ fn inference_sentences(m: &MethodsInput) -> Vec<String> {
 pub fn paragraph(m: &MethodsInput) -> String {
     let mut s = measure_sentences(m);
     s.push(window_sentence(m));
+    s.extend(allowance_sentence(m));
     s.push(signal_sentence(m));
     s.extend(pairing_sentences(m));
     s.extend(null_sentences(m));
@@ -412,6 +426,7 @@ mod tests {
             alternative: "greater".into(),
             bootstrap: 1999,
             seed: 20261201,
+            allowances: vec![],
         }
     }
 
@@ -514,6 +529,28 @@ mod tests {
             m.correction = name.into();
             assert!(paragraph(&m).contains(cite), "{name}");
         }
+    }
+
+    /// Lengths computed as samples × interval carry binary-float tails; a paper writes 60 s.
+    #[test]
+    fn block_lengths_are_written_as_a_paper_writes_them() {
+        let mut m = input();
+        m.block_lengths = vec![(
+            "together".into(),
+            vec![60.000000000000014, 59.99999999999999],
+        )];
+        m.context_s = 66.00000000000001;
+        let p = paragraph(&m);
+        assert!(p.contains("\"together\" 2 blocks of 60 s each"), "{p}");
+        assert!(p.contains("with 66 s of recording kept"), "{p}");
+        assert!(!p.contains("000000"), "{p}");
+        assert!(!p.contains("explicitly allowed"), "{p}");
+        m.allowances = vec!["dyad n03 has 1 of the 2 blocks of \"together\"".into()];
+        let p = paragraph(&m);
+        assert!(
+            p.contains("explicitly allowed incomplete or unequal blocks: dyad n03 has 1 of the 2 blocks of \"together\"."),
+            "{p}"
+        );
     }
 
     #[test]

@@ -83,6 +83,7 @@ pub fn methods_input(a: &Analysis, audit: &PlanAudit) -> MethodsInput {
         },
         bootstrap: cfg.inference.bootstrap,
         seed: a.seed,
+        allowances: a.study.allowances.clone(),
     }
 }
 

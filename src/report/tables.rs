@@ -3,10 +3,26 @@
 
 use std::path::Path;
 
-use crate::inference::{ContrastRow, DyadRow, ResultRow};
+use crate::inference::{ContrastRow, DyadRow, ResultRow, TestKind};
 use crate::pairing::{PairPlan, Status};
 use crate::study::Study;
 use crate::table::{Table, TableError, write_table};
+
+/// `effect_size_kind` of the re-pairing test: (T − mean T*) / SD(T*), the observed statistic's
+/// distance from its re-pairing distribution in null standard deviations.
+pub const EFFECT_NULL_Z: &str = "null_z";
+/// `effect_size_kind` of the dyad contrast and the condition contrasts: Cohen's d_z, the mean
+/// paired difference over its standard deviation.
+pub const EFFECT_D_Z: &str = "d_z";
+
+/// What `effect_size` means in a row: each test has its own standardised effect, and the column
+/// beside it says which, so no reader averages the two.
+pub fn effect_size_kind(test: TestKind) -> &'static str {
+    match test {
+        TestKind::Repairing => EFFECT_NULL_Z,
+        TestKind::DyadContrast => EFFECT_D_Z,
+    }
+}
 
 pub fn results(rows: &[ResultRow], path: &Path) -> Result<(), TableError> {
     let t = Table::new()
@@ -27,6 +43,12 @@ pub fn results(rows: &[ResultRow], path: &Path) -> Result<(), TableError> {
         .float("pseudo_mean", rows.iter().map(|r| r.pseudo_mean).collect())
         .float("excess", rows.iter().map(|r| r.excess).collect())
         .float("effect_size", rows.iter().map(|r| r.effect_size).collect())
+        .text(
+            "effect_size_kind",
+            rows.iter()
+                .map(|r| effect_size_kind(r.test).to_string())
+                .collect(),
+        )
         .float("ci_low", rows.iter().map(|r| r.ci_low).collect())
         .float("ci_high", rows.iter().map(|r| r.ci_high).collect())
         .float("statistic", rows.iter().map(|r| r.statistic).collect())
@@ -68,6 +90,10 @@ pub fn contrasts(rows: &[ContrastRow], path: &Path) -> Result<(), TableError> {
             rows.iter().map(|r| r.mean_difference).collect(),
         )
         .float("effect_size", rows.iter().map(|r| r.effect_size).collect())
+        .text(
+            "effect_size_kind",
+            rows.iter().map(|_| EFFECT_D_Z.to_string()).collect(),
+        )
         .float("ci_low", rows.iter().map(|r| r.ci_low).collect())
         .float("ci_high", rows.iter().map(|r| r.ci_high).collect())
         .float("statistic", rows.iter().map(|r| r.statistic).collect())
