@@ -352,3 +352,231 @@ fn a_closed_stdout_is_not_a_failure() {
     assert!(out.status.success(), "{err}");
     assert!(!err.contains("panicked"), "{err}");
 }
+
+/// Rewrites the rows of one dyad in the events table through `f` (`None` drops the row).
+fn edit_dyad_events(s: &TempStudy, dyad: &str, f: impl Fn(&str) -> Option<String>) {
+    s.edit("events.tsv", |t| {
+        let mut out = String::new();
+        for line in t.lines() {
+            let kept = if line.starts_with(&format!("{dyad}\t")) {
+                f(line)
+            } else {
+                Some(line.to_string())
+            };
+            if let Some(l) = kept {
+                out.push_str(&l);
+                out.push('\n');
+            }
+        }
+        out
+    });
+}
+
+#[test]
+fn a_condition_label_in_another_case_is_an_error_not_a_new_condition() {
+    let s = TempStudy::new();
+    edit_dyad_events(&s, "t03", |l| Some(l.replace("\tjoint", "\tJoint")));
+    let o = s.check();
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert_fails_with(
+        &o,
+        &[
+            "events.tsv",
+            "column trial_type",
+            "condition labels \"joint\" (rows 1, 4,",
+            "and \"Joint\" (rows 19, 22 and 25; dyad t03)",
+            "differ only in case, spaces, hyphens or underscores",
+        ],
+    );
+    assert!(!stdout(&o).contains("valid"), "{}", stdout(&o));
+    let out = s.dir.path().join("out");
+    let r = s.run_into(&out, &[]);
+    assert_eq!(r.status.code(), Some(2), "{}", stderr(&r));
+    assert!(stderr(&r).contains("\"Joint\""), "{}", stderr(&r));
+}
+
+#[test]
+fn a_condition_missing_from_one_dyad_is_an_error_unless_the_study_allows_it() {
+    let s = TempStudy::new();
+    edit_dyad_events(&s, "t03", |l| {
+        (!l.ends_with("\trest")).then(|| l.to_string())
+    });
+    let o = s.check();
+    assert_fails_with(
+        &o,
+        &[
+            "events.tsv",
+            "condition \"rest\" (rows",
+            "has 3 block(s) in some dyads but fewer in others: dyad t03 has 0",
+            "[study] allow_missing_blocks = true",
+        ],
+    );
+    assert!(!stdout(&o).contains("valid"));
+    s.edit("study.toml", |t| {
+        t.replace(
+            "name = \"tower-demo\"",
+            "name = \"tower-demo\"\nallow_missing_blocks = true",
+        )
+        .replace("permutations = 10000", "permutations = 300")
+    });
+    let o = s.check();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let summary = stdout(&o);
+    assert!(
+        summary.contains(
+            "allowed        dyad t03 has 0 of the 3 blocks of \"rest\"; its missing blocks are left out (allowed by [study] allow_missing_blocks)"
+        ),
+        "{summary}"
+    );
+    let out = s.dir.path().join("out");
+    let r = s.run_into(&out, &[]);
+    assert!(r.status.success(), "{}", stderr(&r));
+    let report = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(
+        report.contains("explicitly allowed incomplete or unequal blocks: dyad t03 has 0 of the 3 blocks of &quot;rest&quot;"),
+        "methods paragraph lacks the allowance"
+    );
+    let manifest = std::fs::read_to_string(out.join("manifest.json")).unwrap();
+    assert!(manifest.contains("allow_missing_blocks"), "{manifest}");
+}
+
+#[test]
+fn unequal_block_durations_are_an_error_unless_the_study_allows_them() {
+    let s = TempStudy::new();
+    // Row 1 is t01's first block of "joint" (30 s); 40 s is a third longer.
+    s.set_cell("events.tsv", 1, 2, "40.0");
+    assert_fails_with(
+        &s.check(),
+        &[
+            "events.tsv",
+            "column duration",
+            "block 1 of \"joint\": durations range from 30 s (row 10, dyad t02) to 40 s (row 1, dyad t01)",
+            "[study] allow_truncated_blocks = true",
+        ],
+    );
+    s.edit("study.toml", |t| {
+        t.replace(
+            "name = \"tower-demo\"",
+            "name = \"tower-demo\"\nallow_truncated_blocks = true",
+        )
+    });
+    let o = s.check();
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stdout(&o).contains("(allowed by [study] allow_truncated_blocks)"),
+        "{}",
+        stdout(&o)
+    );
+}
+
+#[test]
+fn a_misspelt_members_header_is_one_problem_without_follow_on_errors() {
+    let s = TempStudy::new();
+    s.edit("members.tsv", |t| t.replacen("dyad\t", "dyda\t", 1));
+    let o = s.check();
+    assert_fails_with(
+        &o,
+        &[
+            "1 problem(s)",
+            "members.tsv: missing required column `dyad`",
+            "columns found: `dyda`, `role`",
+            "the nearest is `dyda`",
+            "[inputs.columns] dyad = \"dyda\"",
+        ],
+    );
+    assert!(!stderr(&o).contains("unknown dyad"), "{}", stderr(&o));
+}
+
+/// Runs the binary with stdout and stderr both closed before it writes anything, as a
+/// reader that stops early (`2>&1 | head -0`) leaves them.
+fn with_closed_streams(args: &[&str]) -> std::process::Output {
+    let mut child = std::process::Command::new(crate::util::bin())
+        .args(args)
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take());
+    drop(child.stderr.take());
+    child.wait_with_output().unwrap()
+}
+
+#[test]
+fn closed_stdout_and_stderr_keep_the_documented_exit_codes() {
+    let s = TempStudy::new();
+    let toml = s.toml();
+    let toml = toml.to_str().unwrap();
+    // Valid: 0, although neither the summary nor the verdict could be written.
+    assert_eq!(with_closed_streams(&["check", toml]).status.code(), Some(0));
+    // Invalid: 2, not a panic (101) and not a success.
+    edit_dyad_events(&s, "t02", |l| Some(l.replace("\tparallel", "\tParallel")));
+    assert_eq!(with_closed_streams(&["check", toml]).status.code(), Some(2));
+    let out = s.dir.path().join("out");
+    let o = with_closed_streams(&["run", toml, "--out", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    // Only stderr closed, the summary still read: no panic text anywhere, exit 2.
+    let mut child = std::process::Command::new(crate::util::bin())
+        .args(["check", toml])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stderr.take());
+    let o = child.wait_with_output().unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stdout(&o).contains("study tower-demo"), "{}", stdout(&o));
+    assert!(!stdout(&o).contains("panicked"));
+}
+
+#[test]
+fn numbers_in_messages_and_the_methods_paragraph_have_no_float_tails() {
+    // At 10 Hz the sampling interval is 0.1 s, which no binary float holds exactly.
+    let s = TempStudy::with_args(&[
+        "--dyads",
+        "8",
+        "--sampling-hz",
+        "10",
+        "--rois",
+        "1",
+        "--block-s",
+        "60",
+        "--blocks-per-condition",
+        "1",
+    ]);
+    s.edit("study.toml", |t| {
+        t.replace("context_s = 90", "context_s = 400")
+            .replace("permutations = 10000", "permutations = 200")
+            .replace("bootstrap = 2000", "bootstrap = 100")
+    });
+    let o = s.check();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let err = stderr(&o);
+    let warning = err
+        .lines()
+        .find(|l| l.contains("context shortened from 400 s to "))
+        .unwrap_or_else(|| panic!("no shortened-context warning:\n{err}"));
+    let to = warning
+        .split("to ")
+        .nth(1)
+        .and_then(|r| r.split(" s,").next())
+        .unwrap();
+    let decimals = to.split('.').nth(1).map_or(0, str::len);
+    assert!(decimals <= 1, "{warning}");
+    assert!(
+        stdout(&o).contains("the study is valid, with"),
+        "{}",
+        stdout(&o)
+    );
+    let out = s.dir.path().join("out");
+    let r = s.run_into(&out, &[]);
+    assert!(r.status.success(), "{}", stderr(&r));
+    let report = std::fs::read_to_string(out.join("report.html")).unwrap();
+    let methods = report
+        .split("Interpersonal synchrony was quantified")
+        .nth(1)
+        .expect("methods paragraph");
+    let methods = methods.split("</p>").next().unwrap();
+    assert!(methods.contains("1 block of 60 s"), "{methods}");
+    assert!(!methods.contains("00000"), "{methods}");
+    assert!(!methods.contains("99999"), "{methods}");
+}

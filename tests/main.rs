@@ -8,6 +8,7 @@ mod calibration;
 mod demo;
 mod engine;
 mod errors;
+mod exports;
 mod inference_reference;
 mod loading;
 mod pycwt_reference;

@@ -1245,14 +1245,14 @@ roles = ["caregiver", "child"]
 
     #[test]
     fn a_lab_layout_is_read_from_its_sub_tables() {
-        let text = inputs_extra(&format!(
-            "recording_pattern = \"{{participant}}_session1.csv\"\n\
+        let text = inputs_extra(
+            "recording_pattern = \"{participant}_session1.csv\"\n\
              [inputs.columns]\ndyad = \"dyad_no\"\nonset = \"start_s\"\n\
              [inputs.recording_format]\ntime_column = \"Time(s)\"\n\
-             column_pattern = \"{{channel}} {{chromophore}}\"\n\
-             chromophore_labels = {{ hbo = \"HbO\", hbr = \"HbR\" }}\n\
-             [study]\nconditions = [\"together\", \"apart\"]\nallow_missing_blocks = true\n"
-        ));
+             column_pattern = \"{channel} {chromophore}\"\n\
+             chromophore_labels = { hbo = \"HbO\", hbr = \"HbR\" }\n\
+             [study]\nconditions = [\"together\", \"apart\"]\nallow_missing_blocks = true\n",
+        );
         let c = parse(&text).unwrap();
         let i = &c.inputs;
         assert_eq!(

@@ -221,9 +221,16 @@ fn pattern_fields_are_columns(
         ok = false;
         let mut names: Vec<String> = table.headers.clone();
         names.sort();
-        let near = match names::nearest_name(field, &names) {
-            Some(Nearest::Spelling(f) | Nearest::Close(f)) => format!("; did you mean `{{{f}}}`?"),
-            None => String::new(),
+        // The file's own name of a mapped column is a likely slip: the pattern uses ours.
+        let mapped = table.aliases.iter().find(|(_, theirs)| theirs == field);
+        let near = match (mapped, names::nearest_name(field, &names)) {
+            (Some((ours, _)), _) => format!(
+                "; did you mean `{{{ours}}}`? (`{field}` is mapped to `{ours}` by [inputs.columns])"
+            ),
+            (None, Some(Nearest::Spelling(f) | Nearest::Close(f))) => {
+                format!("; did you mean `{{{f}}}`?")
+            }
+            (None, None) => String::new(),
         };
         problems.push(
             Problem::in_file(
