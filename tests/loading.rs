@@ -73,7 +73,7 @@ fn parquet_recordings_give_the_same_signals() {
 
 #[test]
 fn the_example_configs_parse() {
-    for name in ["roles.toml", "peers.toml"] {
+    for name in ["roles.toml", "peers.toml", "mapped.toml"] {
         let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
             .join("configs")
             .join(name);
