@@ -19,6 +19,7 @@ pub mod report;
 pub mod spectral;
 pub mod study;
 pub mod table;
+pub mod vocab;
 
 use std::process::ExitCode;
 

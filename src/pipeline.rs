@@ -59,8 +59,8 @@ pub fn engine_pairs(plan: &PairPlan) -> Vec<PairRef> {
             (real || status.is_admissible()).then(|| PairRef {
                 row: r,
                 col: c,
-                a: plan.rows[r],
-                b: plan.cols[c],
+                a: plan.grid.row_member(r),
+                b: plan.grid.col_member(c),
                 real,
             })
         })
@@ -77,9 +77,7 @@ pub fn synchrony(
     engine::compute(
         study,
         &engine_pairs(plan),
-        plan.n_rows(),
-        plan.n_cols(),
-        plan.peers,
+        &plan.grid,
         EngineOptions { memory_bytes },
         progress,
     )
@@ -89,24 +87,17 @@ pub fn synchrony(
 /// a draw when the design admits it (with the default reference set real pairs may), while
 /// the pseudo-pair lists behind the pseudo means hold admissible pseudo-pairs only.
 pub fn layout(study: &Study, plan: &PairPlan, design: &NullDesign) -> inference::Layout {
-    let (n_rows, n_cols) = (plan.n_rows(), plan.n_cols());
-    let mut admissible = vec![false; n_rows * n_cols];
-    for r in 0..n_rows {
-        for c in 0..n_cols {
-            admissible[r * n_cols + c] = design.admits(r, c);
-        }
-    }
-    let to_u32 =
-        |v: Vec<(usize, usize)>| v.into_iter().map(|(r, c)| (r as u32, c as u32)).collect();
+    let grid = plan.grid.clone();
+    let admissible = ndarray::Array2::from_shape_fn((grid.n_rows(), grid.n_cols()), |(r, c)| {
+        design.admits(r, c)
+    });
     inference::Layout {
-        n_rows,
-        n_cols,
-        peers: plan.peers,
+        grid,
         dyads: study.dyads.iter().map(|d| d.id.clone()).collect(),
-        real: to_u32(plan.real.clone()),
+        real: plan.real.clone(),
         admissible,
         dyad_pseudo: (0..plan.n_dyads())
-            .map(|d| to_u32(plan.pseudo_pairs_of_dyad(d)))
+            .map(|d| plan.pseudo_pairs_of_dyad(d))
             .collect(),
     }
 }

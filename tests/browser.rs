@@ -399,8 +399,8 @@ fn sample_report() -> ReportData {
             label: "task · hbr · slow · frontal <left>".into(),
             row_labels: dyad_ids.iter().map(|d| format!("{d}-guide")).collect(),
             col_labels: dyad_ids.iter().map(|d| format!("{d}-builder")).collect(),
-            values,
-            status,
+            values: ndarray::Array2::from_shape_vec((n, n), values).unwrap(),
+            status: ndarray::Array2::from_shape_vec((n, n), status).unwrap(),
         }),
         warnings: vec![
             "block 2 of \"task\" shortened to 118.5 s <the shortest across dyads>".into(),

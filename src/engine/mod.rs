@@ -25,14 +25,15 @@ use crate::spectral::coarse::CoarsePlan;
 use crate::spectral::{Complex64, band_scale_grid};
 use crate::study::config::{ChannelPairs, Measure, TimeGrid};
 use crate::study::{BlockWindow, Study};
+use crate::vocab::{Col, MemberIx, PairGrid, Row};
 
 /// One pair to compute: its place in the pairing matrix and its two members.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct PairRef {
-    pub row: usize,
-    pub col: usize,
-    pub a: usize,
-    pub b: usize,
+    pub row: Row,
+    pub col: Col,
+    pub a: MemberIx,
+    pub b: MemberIx,
     pub real: bool,
 }
 
@@ -53,18 +54,16 @@ pub enum EngineError {
 /// The band label used for correlation, which does not resolve periods.
 pub const BROADBAND: &str = "broadband";
 
-/// Computes every pair's values. `n_rows`/`n_cols` size the pairing matrix; `peers` mirrors it.
+/// Computes every pair's values; `grid` shapes the matrices (and mirrors them in peers mode).
 pub fn compute(
     study: &Study,
     pairs: &[PairRef],
-    n_rows: usize,
-    n_cols: usize,
-    peers: bool,
+    grid: &PairGrid,
     options: EngineOptions,
     progress: &dyn Progress,
 ) -> Result<Synchrony, EngineError> {
     let cfg = &study.config.synchrony;
-    let mut syn = Synchrony::layout(study, pairs, n_rows, n_cols, peers);
+    let mut syn = Synchrony::layout(study, pairs, grid);
     let n_members = study.members.len();
     let channel_groups: Vec<Vec<usize>> = match cfg.channel_pairs {
         ChannelPairs::Same => (0..study.channels.len()).map(|c| vec![c]).collect(),
@@ -74,8 +73,8 @@ pub fn compute(
     let members_used = {
         let mut used = vec![false; n_members];
         for p in pairs {
-            used[p.a] = true;
-            used[p.b] = true;
+            used[p.a.0] = true;
+            used[p.b.0] = true;
         }
         used.iter().filter(|u| **u).count() as u64
     };

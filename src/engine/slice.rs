@@ -74,11 +74,11 @@ pub fn run<K: PairKernel>(
     for mut tile in tiles(pairs, ctx.members_used, cap) {
         // Pairs in small squares of the pairing matrix, so that neighbouring pairs share
         // members whose data are still in cache; each value still lands in its own slot.
-        tile.sort_by_key(|&i| (pairs[i].row / LOCALITY, pairs[i].col / LOCALITY, i));
+        tile.sort_by_key(|&i| (pairs[i].row.0 / LOCALITY, pairs[i].col.0 / LOCALITY, i));
         let members: Vec<usize> = {
             let mut m: Vec<usize> = tile
                 .iter()
-                .flat_map(|&i| [pairs[i].a, pairs[i].b])
+                .flat_map(|&i| [pairs[i].a.0, pairs[i].b.0])
                 .collect();
             m.sort_unstable();
             m.dedup();
@@ -129,8 +129,8 @@ pub fn run<K: PairKernel>(
                                 channel_b: cb,
                                 ..MISSING
                             };
-                            let x = caches[index[&(p.a, ca)]].as_ref();
-                            let y = caches[index[&(p.b, cb)]].as_ref();
+                            let x = caches[index[&(p.a.0, ca)]].as_ref();
+                            let y = caches[index[&(p.b.0, cb)]].as_ref();
                             if let (Some(x), Some(y)) = (x, y) {
                                 lanes.push(k);
                                 xs.push(x);
@@ -186,7 +186,7 @@ fn tiles(pairs: &[PairRef], members_used: usize, cap: usize) -> Vec<Vec<usize>> 
     let mut by_tile: BTreeMap<(usize, usize), Vec<usize>> = BTreeMap::new();
     for (i, p) in pairs.iter().enumerate() {
         by_tile
-            .entry((p.row / side, p.col / side))
+            .entry((p.row.0 / side, p.col.0 / side))
             .or_default()
             .push(i);
     }

@@ -10,10 +10,13 @@
 //! - correlation: channel and block averages are taken on Fisher's z (blocks weighted by their
 //!   sample counts) and turned back into r.
 
+use ndarray::Array2;
+
 use super::PairRef;
 use super::slice::SliceResult;
 use crate::study::Study;
 use crate::study::config::{ChannelPairs, Measure};
+use crate::vocab::PairGrid;
 
 /// Running sums of one (pair, block, chromophore, band, roi) value.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
@@ -35,9 +38,8 @@ pub struct EngineTiming {
 #[derive(Clone, Debug)]
 pub struct Synchrony {
     pub pairs: Vec<PairRef>,
-    pub n_rows: usize,
-    pub n_cols: usize,
-    pub peers: bool,
+    /// The pairing matrix every cell's values are laid out on.
+    pub grid: PairGrid,
     pub measure: Measure,
     pub conditions: Vec<String>,
     pub chromophores: Vec<String>,
@@ -66,17 +68,11 @@ pub struct CellValues {
     pub chromophore: usize,
     pub band: usize,
     pub roi: usize,
-    pub values: Vec<f64>,
+    pub values: Array2<f64>,
 }
 
 impl Synchrony {
-    pub(super) fn layout(
-        study: &Study,
-        pairs: &[PairRef],
-        n_rows: usize,
-        n_cols: usize,
-        peers: bool,
-    ) -> Self {
+    pub(super) fn layout(study: &Study, pairs: &[PairRef], grid: &PairGrid) -> Self {
         let cfg = &study.config.synchrony;
         let bands: Vec<String> = match cfg.measure {
             Measure::Wtc => study.config.bands.iter().map(|b| b.name.clone()).collect(),
@@ -103,9 +99,7 @@ impl Synchrony {
         let n = pairs.len() * blocks.len() * cfg.chromophores.len() * bands.len() * rois.len();
         Synchrony {
             pairs: pairs.to_vec(),
-            n_rows,
-            n_cols,
-            peers,
+            grid: grid.clone(),
             measure: cfg.measure,
             conditions: study.conditions.iter().map(|c| c.name.clone()).collect(),
             chromophores: cfg.chromophores.clone(),
@@ -224,12 +218,12 @@ impl Synchrony {
             for chrom in 0..self.chromophores.len() {
                 for band in 0..self.bands.len() {
                     for roi in 0..self.rois.len() {
-                        let mut values = vec![f64::NAN; self.n_rows * self.n_cols];
+                        let mut values = self.grid.matrix(f64::NAN);
                         for (p, pr) in self.pairs.iter().enumerate() {
                             let v = self.condition_value(p, cond, chrom, band, roi);
-                            values[pr.row * self.n_cols + pr.col] = v;
-                            if self.peers {
-                                values[pr.col * self.n_cols + pr.row] = v;
+                            values[[pr.row.0, pr.col.0]] = v;
+                            if self.grid.is_peers() {
+                                values[[pr.col.0, pr.row.0]] = v;
                             }
                         }
                         out.push(CellValues {

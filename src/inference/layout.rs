@@ -3,6 +3,7 @@
 //! per-dyad pseudo lists and the draws as flat matrix indices. Reads no cell values.
 
 use super::types::{CellMatrix, Draws, InferenceConfig, InferenceError, Layout};
+use crate::vocab::{Cell, Col, Row};
 
 /// Index tables derived once per call and shared by every cell.
 #[derive(Debug, Clone)]
@@ -26,26 +27,25 @@ pub(crate) struct Prepared {
     pub unowned: usize,
 }
 
-/// Maps a (row, col) pair to its flat index; the second argument names the pair for the
-/// error message and is only called on failure.
-type FlatIndex<'a> = dyn Fn((u32, u32), &dyn Fn() -> String) -> Result<usize, InferenceError> + 'a;
-
 fn layout_err(msg: String) -> InferenceError {
     InferenceError::Layout(msg)
 }
 
-/// Validates everything and builds the shared tables.
+/// Validates everything and builds the shared tables. `try_infer` is a public entry that the
+/// tests and benchmarks call with hand-built layouts, so it checks its inputs once here; the
+/// pipeline's layouts come from a validated pair plan and pass by construction.
 pub(crate) fn prepare(
     layout: &Layout,
     cells: &[CellMatrix],
     draws: &Draws,
     cfg: &InferenceConfig,
 ) -> Result<Prepared, InferenceError> {
-    let (nr, nc) = (layout.n_rows, layout.n_cols);
-    let size = nr
-        .checked_mul(nc)
-        .filter(|&s| s <= u32::MAX as usize)
-        .ok_or_else(|| layout_err(format!("matrix of {nr} x {nc} is too large")))?;
+    let grid = &layout.grid;
+    let (nr, nc) = (grid.n_rows(), grid.n_cols());
+    let size = grid.len();
+    if size > u32::MAX as usize {
+        return Err(layout_err(format!("matrix of {nr} x {nc} is too large")));
+    }
     let d = layout.dyads.len();
     if layout.real.len() != d || layout.dyad_pseudo.len() != d {
         return Err(layout_err(format!(
@@ -54,32 +54,37 @@ pub(crate) fn prepare(
             layout.dyad_pseudo.len()
         )));
     }
-    if layout.admissible.len() != size {
+    if layout.admissible.dim() != (nr, nc) {
         return Err(layout_err(format!(
-            "admissible mask has {} entries, expected {nr} x {nc} = {size}",
-            layout.admissible.len()
-        )));
-    }
-    if layout.peers && nr != nc {
-        return Err(layout_err(format!(
-            "peers mode needs a square matrix, got {nr} x {nc}"
+            "admissible mask is {:?}, expected {nr} x {nc}",
+            layout.admissible.dim()
         )));
     }
     // `what` is only called to describe a failure, so the happy path formats nothing.
-    let flat = |(r, c): (u32, u32), what: &dyn Fn() -> String| -> Result<usize, InferenceError> {
-        let (r, c) = (r as usize, c as usize);
-        if r >= nr || c >= nc {
+    let flat = |(r, c): (Row, Col), what: &dyn Fn() -> String| -> Result<Cell, InferenceError> {
+        if !grid.contains(r, c) {
             return Err(layout_err(format!(
-                "{} ({r}, {c}) lies outside the {nr} x {nc} matrix",
-                what()
+                "{} ({}, {}) lies outside the {nr} x {nc} matrix",
+                what(),
+                r.0,
+                c.0
             )));
         }
-        Ok(r * nc + c)
+        Ok(grid.cell(r, c))
     };
-    if layout.peers {
+    let admissible = |cell: Cell| {
+        let (r, c) = grid.row_col(cell);
+        layout.admissible[[r.0, c.0]]
+    };
+    if grid.is_peers() {
+        if nr != nc {
+            return Err(layout_err(format!(
+                "peers mode needs a square matrix, got {nr} x {nc}"
+            )));
+        }
         for r in 0..nr {
             for c in 0..r {
-                if layout.admissible[r * nc + c] != layout.admissible[c * nc + r] {
+                if layout.admissible[[r, c]] != layout.admissible[[c, r]] {
                     return Err(layout_err(format!(
                         "peers admissible mask is not symmetric at ({r}, {c})"
                     )));
@@ -96,19 +101,19 @@ pub(crate) fn prepare(
     for (dy, &(a, b)) in layout.real.iter().enumerate() {
         let name = &layout.dyads[dy];
         let idx = flat((a, b), &|| format!("real pair of dyad {name}"))?;
-        let (a, b) = (a as usize, b as usize);
-        real_idx.push(idx);
-        is_real[idx] = true;
-        let claims: [(bool, usize); 2] = if layout.peers {
-            if a == b {
+        real_idx.push(idx.0);
+        is_real[idx.0] = true;
+        let claims: [(bool, usize); 2] = if grid.is_peers() {
+            if a.0 == b.0 {
                 return Err(layout_err(format!(
-                    "dyad {name} pairs member {a} with itself"
+                    "dyad {name} pairs member {} with itself",
+                    a.0
                 )));
             }
-            is_real[b * nc + a] = true;
-            [(true, a), (true, b)]
+            is_real[grid.mirror(idx).expect("peers grids mirror").0] = true;
+            [(true, a.0), (true, b.0)]
         } else {
-            [(true, a), (false, b)]
+            [(true, a.0), (false, b.0)]
         };
         for (is_row, m) in claims {
             let owners = if is_row {
@@ -125,27 +130,24 @@ pub(crate) fn prepare(
             owners[m] = Some(dy);
         }
     }
-    if layout.peers {
+    if grid.is_peers() {
         col_owner.clone_from(&row_owner);
     }
     let unowned = row_owner.iter().filter(|o| o.is_none()).count()
-        + if layout.peers {
+        + if grid.is_peers() {
             0
         } else {
             col_owner.iter().filter(|o| o.is_none()).count()
         };
 
     let mut pseudo = Vec::new();
-    for (r, row) in row_owner.iter().enumerate() {
-        let c0 = if layout.peers { r + 1 } else { 0 };
-        for (c, col) in col_owner.iter().enumerate().skip(c0) {
-            let idx = r * nc + c;
-            if !layout.admissible[idx] || is_real[idx] {
-                continue;
-            }
-            if let (Some(dr), Some(dc)) = (row, col) {
-                pseudo.push((idx, *dr, *dc));
-            }
+    for (r, c) in grid.candidates() {
+        let idx = grid.cell(r, c);
+        if !admissible(idx) || is_real[idx.0] {
+            continue;
+        }
+        if let (Some(dr), Some(dc)) = (row_owner[r.0], col_owner[c.0]) {
+            pseudo.push((idx.0, dr, dc));
         }
     }
 
@@ -158,34 +160,29 @@ pub(crate) fn prepare(
             let idx = flat(pair, &|| {
                 format!("pseudo pair of dyad {}", layout.dyads[dy])
             })?;
-            if !layout.admissible[idx] {
+            if !admissible(idx) {
                 return Err(layout_err(format!(
                     "pseudo pair ({}, {}) of dyad {} is not admissible",
-                    pair.0, pair.1, layout.dyads[dy]
+                    pair.0.0, pair.1.0, layout.dyads[dy]
                 )));
             }
-            if is_real[idx] {
+            if is_real[idx.0] {
                 continue;
             }
-            let (r, c) = (pair.0 as usize, pair.1 as usize);
-            kept.push(idx);
-            canon.push(if layout.peers && c < r {
-                c * nc + r
-            } else {
-                idx
-            });
+            kept.push(idx.0);
+            canon.push(grid.canonical(idx).0);
         }
         dyad_pseudo.push(kept);
         dyad_pseudo_canonical.push(canon);
     }
 
     for cell in cells {
-        if cell.values.len() != size {
+        if cell.values.dim() != (nr, nc) || cell.values.as_slice().is_none() {
             return Err(InferenceError::Cell {
                 key: cell.key.clone(),
                 detail: format!(
-                    "matrix has {} values, expected {nr} x {nc} = {size}",
-                    cell.values.len()
+                    "matrix is {:?}, expected {nr} x {nc} in standard layout",
+                    cell.values.dim()
                 ),
             });
         }
@@ -198,7 +195,7 @@ pub(crate) fn prepare(
         )));
     }
 
-    let (draw_idx, n_draws) = prepare_draws(layout, draws, &flat)?;
+    let (draw_idx, n_draws) = prepare_draws(layout, draws)?;
     Ok(Prepared {
         n_dyads: d,
         real_idx,
@@ -212,12 +209,9 @@ pub(crate) fn prepare(
 }
 
 /// Checks each draw (in range, admissible, every row/column or member used at most once)
-/// and flattens it.
-fn prepare_draws(
-    layout: &Layout,
-    draws: &Draws,
-    flat: &FlatIndex,
-) -> Result<(Vec<u32>, usize), InferenceError> {
+/// and flattens it. Draws are (row, column) positions as the samplers write them.
+fn prepare_draws(layout: &Layout, draws: &Draws) -> Result<(Vec<u32>, usize), InferenceError> {
+    let grid = &layout.grid;
     let d = layout.dyads.len();
     if draws.pairs.is_empty() {
         return Ok((Vec::new(), 0));
@@ -230,23 +224,25 @@ fn prepare_draws(
         )));
     }
     let n_draws = draws.pairs.len() / d;
-    let mut row_seen = vec![usize::MAX; layout.n_rows];
-    let mut col_seen = vec![usize::MAX; layout.n_cols];
+    let mut row_seen = vec![usize::MAX; grid.n_rows()];
+    let mut col_seen = vec![usize::MAX; grid.n_cols()];
     let mut idx = Vec::with_capacity(draws.pairs.len());
     for (k, block) in draws.pairs.chunks_exact(d).enumerate() {
-        for &pair in block {
-            let i = flat(pair, &|| format!("pair of draw {k}")).map_err(|e| match e {
-                InferenceError::Layout(m) => InferenceError::Draws(m),
-                other => other,
-            })?;
-            if !layout.admissible[i] {
+        for &(r, c) in block {
+            let (r, c) = (r as usize, c as usize);
+            if !grid.contains(Row(r), Col(c)) {
                 return Err(InferenceError::Draws(format!(
-                    "draw {k} uses the inadmissible pair ({}, {})",
-                    pair.0, pair.1
+                    "pair of draw {k} ({r}, {c}) lies outside the {} x {} matrix",
+                    grid.n_rows(),
+                    grid.n_cols()
                 )));
             }
-            let (r, c) = (pair.0 as usize, pair.1 as usize);
-            let reused = if layout.peers {
+            if !layout.admissible[[r, c]] {
+                return Err(InferenceError::Draws(format!(
+                    "draw {k} uses the inadmissible pair ({r}, {c})"
+                )));
+            }
+            let reused = if grid.is_peers() {
                 let twice = row_seen[r] == k || row_seen[c] == k;
                 row_seen[r] = k;
                 row_seen[c] = k;
@@ -262,7 +258,7 @@ fn prepare_draws(
                     "draw {k} uses a member twice (pair ({r}, {c}))"
                 )));
             }
-            idx.push(i as u32);
+            idx.push(grid.cell(Row(r), Col(c)).0 as u32);
         }
     }
     Ok((idx, n_draws))
@@ -313,7 +309,7 @@ mod tests {
     #[test]
     fn bad_inputs_are_reported_with_context() {
         let mut l = roles(3);
-        l.real[1] = (0, 1);
+        l.real[1] = (Row(0), Col(1));
         let e = prepare(
             &l,
             &[],
@@ -334,7 +330,7 @@ mod tests {
                 band: "b".into(),
                 roi: "r".into(),
             },
-            values: vec![0.0; 4],
+            values: ndarray::Array2::zeros((2, 2)),
         };
         let e = prepare(
             &roles(3),

@@ -171,20 +171,21 @@ fn analyse_cell(
     prep: &Prepared,
     cfg: &InferenceConfig,
 ) -> CellOutcome {
-    let g = repairing::group_test(&cell.values, prep, cfg.alternative);
+    let values = cell.flat();
+    let g = repairing::group_test(values, prep, cfg.alternative);
     let ci = if g.untestable.is_none() {
         let pseudo: Vec<(usize, usize, f64)> = prep
             .pseudo
             .iter()
-            .filter(|p| repairing::present(cell.values[p.0]))
-            .map(|&(i, a, b)| (a, b, cell.values[i]))
+            .filter(|p| repairing::present(values[p.0]))
+            .map(|&(i, a, b)| (a, b, values[i]))
             .collect();
         let mut rng = stats::stream(cfg.seed, stats::STREAM_BOOTSTRAP, index as u64);
         bootstrap::excess_interval(&g.real, &pseudo, cfg.bootstrap, cfg.alpha, &mut rng)
     } else {
         (f64::NAN, f64::NAN)
     };
-    let dyad = dyad::dyad_cell(&cell.values, prep, cfg.alternative, cfg.alpha);
+    let dyad = dyad::dyad_cell(values, prep, cfg.alternative, cfg.alpha);
     CellOutcome { group: g, ci, dyad }
 }
 

@@ -5,7 +5,10 @@
 use std::fmt;
 use std::str::FromStr;
 
+use ndarray::Array2;
 use serde::{Deserialize, Serialize};
+
+use crate::vocab::{Col, PairGrid, Row};
 
 /// Direction of the alternative hypothesis. `Greater` is the default of the trade for
 /// synchrony: real dyads are expected to be more synchronous than pseudo-dyads.
@@ -157,29 +160,39 @@ impl fmt::Display for CellKey {
     }
 }
 
-/// One cell's synchrony matrix. Values are `n_rows * n_cols`, row-major; NaN (or any
-/// non-finite value) marks a missing or excluded candidate pair.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+/// One cell's synchrony matrix, shaped like the layout's grid (standard row-major layout, so
+/// a [`Cell`](crate::vocab::Cell) indexes its slice); NaN (or any non-finite value) marks a missing or excluded
+/// candidate pair.
+#[derive(Debug, Clone, PartialEq)]
 pub struct CellMatrix {
     pub key: CellKey,
-    pub values: Vec<f64>,
+    pub values: Array2<f64>,
+}
+
+impl CellMatrix {
+    /// The values in [`Cell`](crate::vocab::Cell) order.
+    pub fn flat(&self) -> &[f64] {
+        self.values
+            .as_slice()
+            .expect("cell matrices are in standard layout")
+    }
 }
 
 /// Who is who in the matrices. Shared by all cells so that the same re-pairings index
 /// every cell.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Layout {
-    pub n_rows: usize,
-    pub n_cols: usize,
-    /// Peers mode: members × members, symmetric. Roles mode: row i and col i belong to dyad i.
-    pub peers: bool,
+    /// Rows and columns; peers mode: members × members, symmetric. Roles mode: row i and
+    /// column i belong to dyad i.
+    pub grid: PairGrid,
     pub dyads: Vec<String>,
-    /// Per dyad, (row, col) of its real pair.
-    pub real: Vec<(u32, u32)>,
-    /// `n_rows * n_cols`, row-major; symmetric in peers mode.
-    pub admissible: Vec<bool>,
+    /// Per dyad, the cell of its real pair.
+    pub real: Vec<(Row, Col)>,
+    /// Pairs a re-pairing may hold (real pairs too with the default reference set);
+    /// symmetric in peers mode.
+    pub admissible: Array2<bool>,
     /// Per dyad: admissible pairs containing either of its members, each once.
-    pub dyad_pseudo: Vec<Vec<(u32, u32)>>,
+    pub dyad_pseudo: Vec<Vec<(Row, Col)>>,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]

@@ -56,7 +56,7 @@ impl<'a> Chain<'a> {
         let mut slots = Vec::new();
         let mut movable = Vec::new();
         for (i, s) in plan.strata.iter().enumerate() {
-            if plan.peers {
+            if plan.peers() {
                 let p: Vec<(u32, u32)> = s
                     .rows
                     .iter()
@@ -79,7 +79,7 @@ impl<'a> Chain<'a> {
             .iter()
             .flat_map(|&(s, size)| std::iter::repeat_n((s as u32, size as u32), size))
             .collect();
-        let sigma = if plan.peers {
+        let sigma = if plan.peers() {
             Vec::new()
         } else {
             start.to_vec()
@@ -123,7 +123,7 @@ impl<'a> Chain<'a> {
             slots.swap(i, j);
         }
         let adm = &self.plan.adm;
-        if self.plan.peers {
+        if self.plan.peers() {
             let pairs = &mut st.pairs[s as usize];
             let mut ends = [(0u32, 0u32); 64];
             let mut long = Vec::new();
@@ -176,7 +176,7 @@ impl<'a> Chain<'a> {
 
     /// The state as `n_dyads` sorted pairs (peers: row < column).
     pub(super) fn write(&self, st: &State, out: &mut [(u32, u32)]) {
-        if self.plan.peers {
+        if self.plan.peers() {
             let mut k = 0;
             for p in &st.pairs {
                 for &(a, b) in p {
@@ -194,7 +194,7 @@ impl<'a> Chain<'a> {
 
     /// Number of pairs of `st` that are not pairs of the start state.
     pub(super) fn distance_from_start(&self, st: &State) -> usize {
-        if self.plan.peers {
+        if self.plan.peers() {
             let mut mate = vec![0u32; self.plan.n_rows()];
             for p in &self.start.pairs {
                 for &(a, b) in p {

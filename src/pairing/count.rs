@@ -64,7 +64,7 @@ pub(super) fn count_repairings(plan: &PairPlan) -> RepairingCount {
 
 fn compute(plan: &PairPlan) -> RepairingCount {
     for s in &plan.strata {
-        if !plan.peers && s.rows.len() != s.cols.len() {
+        if !plan.peers() && s.rows.len() != s.cols.len() {
             return RepairingCount::zero(format!(
                 "zero: stratum {} has {} row and {} column members",
                 s.label,
@@ -72,7 +72,7 @@ fn compute(plan: &PairPlan) -> RepairingCount {
                 s.cols.len()
             ));
         }
-        if plan.peers && s.rows.len() % 2 == 1 {
+        if plan.peers() && s.rows.len() % 2 == 1 {
             return RepairingCount::zero(format!(
                 "zero: stratum {} has an odd number of members ({})",
                 s.label,
@@ -83,20 +83,20 @@ fn compute(plan: &PairPlan) -> RepairingCount {
     let blocks = components(plan);
     let mut parts = Vec::with_capacity(blocks.len());
     for (rows, cols) in &blocks {
-        if plan.peers && rows.len() % 2 == 1 {
+        if plan.peers() && rows.len() % 2 == 1 {
             return RepairingCount::zero(format!(
                 "zero: a group of {} members who can only be paired among themselves is odd-sized",
                 rows.len()
             ));
         }
-        if !plan.peers && rows.len() != cols.len() {
+        if !plan.peers() && rows.len() != cols.len() {
             return RepairingCount::zero(format!(
                 "zero: a group of {} row members can only be paired with {} column members",
                 rows.len(),
                 cols.len()
             ));
         }
-        let part = if plan.peers {
+        let part = if plan.peers() {
             peers_block(plan, rows)
         } else {
             roles_block(plan, rows, cols)
@@ -176,7 +176,7 @@ fn combine(parts: Vec<Part>) -> RepairingCount {
 /// peers: (member positions, empty).
 fn components(plan: &PairPlan) -> Vec<(Vec<usize>, Vec<usize>)> {
     let nr = plan.n_rows();
-    let n = if plan.peers { nr } else { nr + plan.n_cols() };
+    let n = if plan.peers() { nr } else { nr + plan.n_cols() };
     let mut parent: Vec<usize> = (0..n).collect();
     fn find(p: &mut [usize], mut x: usize) -> usize {
         while p[x] != x {
@@ -187,7 +187,7 @@ fn components(plan: &PairPlan) -> Vec<(Vec<usize>, Vec<usize>)> {
     }
     for r in 0..nr {
         for c in plan.adm.ones(r) {
-            let other = if plan.peers { c } else { nr + c };
+            let other = if plan.peers() { c } else { nr + c };
             let (a, b) = (find(&mut parent, r), find(&mut parent, other));
             if a != b {
                 parent[a.max(b)] = a.min(b);

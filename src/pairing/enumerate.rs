@@ -10,7 +10,7 @@ use super::plan::PairPlan;
 /// (peers: row < column), concatenated.
 pub(super) fn enumerate_all(plan: &PairPlan) -> Vec<(u32, u32)> {
     let mut out = Vec::new();
-    if plan.peers {
+    if plan.peers() {
         let mut free = vec![true; plan.n_rows()];
         let mut cur = Vec::with_capacity(plan.n_dyads());
         peers(plan, &mut free, &mut cur, &mut out);

@@ -2,8 +2,10 @@
 //!
 //! Owns everything about which members may form a pseudo-pair, how many complete
 //! re-pairings exist and how to draw them uniformly and reproducibly. It does no I/O,
-//! prints nothing and must not reference any other module of the crate: the loader
-//! hands in [`PairingMember`]s, the statistics code takes [`Repairings`] back.
+//! prints nothing and must not reference any other module of the crate but the shared
+//! vocabulary (`crate::vocab`, e.g. the [`PairGrid`](crate::vocab::PairGrid) every stage
+//! indexes): the loader hands in [`PairingMember`]s, the statistics code takes
+//! [`Repairings`] back.
 //!
 //! Words: a *dyad* is two people recorded together; a *member* is one person's
 //! recording within one dyad; a *participant* is a person id (one person may be a

@@ -99,7 +99,7 @@ impl NullDesign {
         let mut observed: Vec<(u32, u32)> = plan
             .real
             .iter()
-            .map(|&(r, c)| (r as u32, c as u32))
+            .map(|&(r, c)| (r.0 as u32, c.0 as u32))
             .collect();
         observed.sort_unstable();
         NullDesign {

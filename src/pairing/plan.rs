@@ -10,6 +10,7 @@ use super::bits::BitMatrix;
 use super::error::PairingProblem;
 use super::rules::{Reason, RuleSet, Status, stratum_label};
 use super::{Mode, PairingMember, Rules};
+use crate::vocab::{Col, MemberIx, PairGrid, Row};
 
 /// Tallies over all candidates. `candidates = real + admissible + excluded`. Real pairs
 /// are not counted under any rule (they are the observed pairs, not excluded
@@ -42,15 +43,16 @@ pub(super) struct Stratum {
 /// order, the grid is symmetric, and a member against itself has status
 /// `Excluded([SameDyad])` (it is no candidate and is left out of [`PairPlan::candidates`]
 /// and [`PairPlan::counts`]).
+///
+/// The counting and sampling code works on plain row and column positions (`usize`): they are
+/// the indices of its bit matrices and permutations, and every value it hands out goes back
+/// through [`PairGrid`].
 #[derive(Debug, Clone)]
 pub struct PairPlan {
-    pub peers: bool,
-    /// Member index of each row.
-    pub rows: Vec<usize>,
-    /// Member index of each column.
-    pub cols: Vec<usize>,
-    /// Per dyad, (row position, column position) of its real pair; peers: row < column.
-    pub real: Vec<(usize, usize)>,
+    /// Who stands on each row and column.
+    pub grid: PairGrid,
+    /// Per dyad, the cell of its real pair; peers: row < column.
+    pub real: Vec<(Row, Col)>,
     pub(super) status: Vec<Status>,
     pub(super) adm: BitMatrix,
     pub(super) ids: Vec<String>,
@@ -219,15 +221,24 @@ impl PairPlan {
             }
         }
         let real = if peers {
-            real_members.clone()
+            real_members
+                .iter()
+                .map(|&(a, b)| (Row(a), Col(b)))
+                .collect()
         } else {
-            (0..n_dyads).map(|d| (d, d)).collect()
+            (0..n_dyads).map(|d| (Row(d), Col(d))).collect()
         };
         let strata = strata(members, rules, &rows, &cols, peers);
+        let grid = if peers {
+            PairGrid::peers(members.len())
+        } else {
+            PairGrid::roles(
+                rows.into_iter().map(MemberIx).collect(),
+                cols.into_iter().map(MemberIx).collect(),
+            )
+        };
         let plan = PairPlan {
-            peers,
-            rows,
-            cols,
+            grid,
             real,
             status,
             adm,
@@ -247,13 +258,20 @@ impl PairPlan {
     /// Grid line of every member: (is a row, position).
     fn lines(&self) -> Vec<(usize, bool, usize)> {
         let mut v: Vec<(usize, bool, usize)> = self
-            .rows
+            .grid
+            .rows()
             .iter()
             .enumerate()
-            .map(|(p, &m)| (m, true, p))
+            .map(|(p, &m)| (m.0, true, p))
             .collect();
-        if !self.peers {
-            v.extend(self.cols.iter().enumerate().map(|(p, &m)| (m, false, p)));
+        if !self.peers() {
+            v.extend(
+                self.grid
+                    .cols()
+                    .iter()
+                    .enumerate()
+                    .map(|(p, &m)| (m.0, false, p)),
+            );
         }
         v.sort();
         v
@@ -262,7 +280,7 @@ impl PairPlan {
     fn line_statuses(&self, is_row: bool, p: usize) -> Vec<&Status> {
         if is_row {
             (0..self.n_cols())
-                .filter(|&c| !(self.peers && c == p))
+                .filter(|&c| !(self.peers() && c == p))
                 .map(|c| self.status(p, c))
                 .collect()
         } else {
@@ -302,11 +320,15 @@ impl PairPlan {
     }
 
     pub fn n_rows(&self) -> usize {
-        self.rows.len()
+        self.grid.n_rows()
     }
 
     pub fn n_cols(&self) -> usize {
-        self.cols.len()
+        self.grid.n_cols()
+    }
+
+    pub fn peers(&self) -> bool {
+        self.grid.is_peers()
     }
 
     pub fn n_dyads(&self) -> usize {
@@ -321,7 +343,7 @@ impl PairPlan {
     /// Status of row `r` with column `c`. Peers: symmetric; `(r, r)` is
     /// `Excluded([SameDyad])`.
     pub fn status(&self, r: usize, c: usize) -> &Status {
-        &self.status[r * self.n_cols() + c]
+        &self.status[self.grid.cell(Row(r), Col(c)).0]
     }
 
     pub fn is_admissible(&self, r: usize, c: usize) -> bool {
@@ -336,9 +358,9 @@ impl PairPlan {
     pub fn with_real_pairs_in_repairings(&self) -> PairPlan {
         let mut plan = self.clone();
         for &(r, c) in &self.real {
-            plan.adm.set(r, c);
-            if self.peers {
-                plan.adm.set(c, r);
+            plan.adm.set(r.0, c.0);
+            if self.peers() {
+                plan.adm.set(c.0, r.0);
             }
         }
         plan.count_cache = std::sync::OnceLock::new();
@@ -346,13 +368,10 @@ impl PairPlan {
     }
 
     /// Roles: every row × column, row-major. Peers: every `r < c`.
-    pub fn candidates(&self) -> impl Iterator<Item = (usize, usize, &Status)> {
-        let nc = self.n_cols();
-        let peers = self.peers;
-        (0..self.n_rows()).flat_map(move |r| {
-            let start = if peers { r + 1 } else { 0 };
-            (start..nc).map(move |c| (r, c, &self.status[r * nc + c]))
-        })
+    pub fn candidates(&self) -> impl Iterator<Item = (Row, Col, &Status)> {
+        self.grid
+            .candidates()
+            .map(|(r, c)| (r, c, &self.status[self.grid.cell(r, c).0]))
     }
 
     pub fn counts(&self) -> PlanCounts {
@@ -398,10 +417,10 @@ impl PairPlan {
 
     /// Admissible `(r, c)` involving either member of dyad `d`, each once, sorted;
     /// peers: `r < c`.
-    pub fn pseudo_pairs_of_dyad(&self, d: usize) -> Vec<(usize, usize)> {
-        let (a, b) = self.real[d];
+    pub fn pseudo_pairs_of_dyad(&self, d: usize) -> Vec<(Row, Col)> {
+        let (Row(a), Col(b)) = self.real[d];
         let mut out = Vec::new();
-        if self.peers {
+        if self.peers() {
             for x in [a, b] {
                 for y in self.adm.ones(x) {
                     out.push((x.min(y), x.max(y)));
@@ -417,7 +436,7 @@ impl PairPlan {
         }
         out.sort_unstable();
         out.dedup();
-        out
+        out.into_iter().map(|(r, c)| (Row(r), Col(c))).collect()
     }
 
     pub fn count_repairings(&self) -> super::RepairingCount {
@@ -426,11 +445,11 @@ impl PairPlan {
 
     /// Member id of a row / column position.
     pub(super) fn row_id(&self, r: usize) -> &str {
-        &self.ids[self.rows[r]]
+        &self.ids[self.grid.row_member(Row(r)).0]
     }
 
     pub(super) fn col_id(&self, c: usize) -> &str {
-        &self.ids[self.cols[c]]
+        &self.ids[self.grid.col_member(Col(c)).0]
     }
 }
 
@@ -600,8 +619,15 @@ pub(super) mod tests {
         let (members, rules) = family_scenario();
         let plan = PairPlan::build(&members, 10, &roles(), &rules).unwrap();
         // Rows are ordered by dyad even though dyad 2 lists its child first.
-        assert_eq!(plan.rows, vec![0, 2, 5, 6, 8, 10, 12, 14, 16, 18]);
-        assert_eq!(plan.cols, vec![1, 3, 4, 7, 9, 11, 13, 15, 17, 19]);
+        let ix = |v: Vec<usize>| v.into_iter().map(MemberIx).collect::<Vec<_>>();
+        assert_eq!(
+            plan.grid.rows(),
+            ix(vec![0, 2, 5, 6, 8, 10, 12, 14, 16, 18])
+        );
+        assert_eq!(
+            plan.grid.cols(),
+            ix(vec![1, 3, 4, 7, 9, 11, 13, 15, 17, 19])
+        );
         // rows: P P P M Q U V W A8 A9 ; cols: S1 S2 S3 T1 T2 K R Y B8 B9
         //        c0   c1   c2   c3  c4  c5  c6  c7  c8  c9
         // r0 P   real EK   EK   ok  ok  K   W   W   ok  ok   (EK = EP+KA: P was
@@ -685,10 +711,16 @@ pub(super) mod tests {
         ];
         assert_eq!(plan.admissible_partners(), want);
         // Dyad 6 (site S, two dyads): only V–Y (6,7) and W–R (7,6).
-        assert_eq!(plan.pseudo_pairs_of_dyad(6), vec![(6, 7), (7, 6)]);
+        let plain = |d: usize| -> Vec<(usize, usize)> {
+            plan.pseudo_pairs_of_dyad(d)
+                .into_iter()
+                .map(|(r, c)| (r.0, c.0))
+                .collect()
+        };
+        assert_eq!(plain(6), vec![(6, 7), (7, 6)]);
         // Dyad 0: row 0 → cols 3,4,8,9; col 0 → rows 3,4,8,9.
         assert_eq!(
-            plan.pseudo_pairs_of_dyad(0),
+            plain(0),
             vec![
                 (0, 3),
                 (0, 4),
@@ -743,7 +775,8 @@ pub(super) mod tests {
             m(3, "U", None, &[]),
         ];
         let plan = PairPlan::build(&ms, 4, &Mode::Peers, &Rules::default()).unwrap();
-        assert_eq!(plan.real, vec![(0, 1), (2, 3), (4, 5), (6, 7)]);
+        let real: Vec<(usize, usize)> = plan.real.iter().map(|(r, c)| (r.0, c.0)).collect();
+        assert_eq!(real, vec![(0, 1), (2, 3), (4, 5), (6, 7)]);
         assert_eq!(names(plan.status(0, 0)), "same-dyad");
         assert_eq!(names(plan.status(0, 1)), "real");
         assert_eq!(names(plan.status(0, 2)), "same-participant"); // X and X

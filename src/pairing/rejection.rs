@@ -40,7 +40,7 @@ impl<'a> Proposer<'a> {
         for s in &plan.strata {
             scratch.clear();
             scratch.extend_from_slice(&s.cols);
-            if plan.peers {
+            if plan.peers() {
                 let len = scratch.len();
                 let mut i = 0;
                 while i + 1 < len {
@@ -67,7 +67,7 @@ impl<'a> Proposer<'a> {
                 }
             }
         }
-        if plan.peers {
+        if plan.peers() {
             out.sort_unstable();
         }
         true

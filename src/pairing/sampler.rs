@@ -100,12 +100,12 @@ impl Repairings {
 /// A stratum that cannot be re-paired within itself, if any.
 fn strata_error(plan: &PairPlan) -> Option<PairingError> {
     plan.strata.iter().find_map(|s| {
-        if plan.peers && s.rows.len() % 2 == 1 {
+        if plan.peers() && s.rows.len() % 2 == 1 {
             Some(PairingError::OddStratum {
                 stratum: s.label.clone(),
                 size: s.rows.len(),
             })
-        } else if !plan.peers && s.rows.len() != s.cols.len() {
+        } else if !plan.peers() && s.rows.len() != s.cols.len() {
             Some(PairingError::UnbalancedStratum {
                 stratum: s.label.clone(),
                 rows: s.rows.len(),
@@ -122,7 +122,7 @@ fn log10_proposals(plan: &PairPlan) -> f64 {
     plan.strata
         .iter()
         .map(|s| {
-            if plan.peers {
+            if plan.peers() {
                 log10_odd_double_factorial(s.rows.len() / 2)
             } else {
                 log10_factorial(s.rows.len())
@@ -135,7 +135,7 @@ fn start_state(plan: &PairPlan) -> Result<Vec<u32>, PairingError> {
     if let Some(e) = strata_error(plan) {
         return Err(e);
     }
-    if plan.peers {
+    if plan.peers() {
         general_start(plan)
     } else {
         bipartite_start(plan)
@@ -218,7 +218,7 @@ pub fn choose_method(plan: &PairPlan, requested: usize) -> (SamplerMethod, Strin
     (
         SamplerMethod::Chain {
             burn_in,
-            moves: moves_text(plan.peers),
+            moves: moves_text(plan.peers()),
         },
         format!(
             "acceptance {} ({source}) is below {MIN_ACCEPTANCE}, so rejection would be too slow; {burn_why}",
@@ -679,7 +679,7 @@ mod tests {
                     plan.is_admissible(a as usize, b as usize),
                     "draw {k}: {d:?}"
                 );
-                if plan.peers {
+                if plan.peers() {
                     assert!(a < b);
                     assert!(!seen_r[a as usize] && !seen_r[b as usize]);
                     seen_r[a as usize] = true;

@@ -3,6 +3,8 @@
 //! These types carry numbers and labels only; they hold no logic and must not reach into the
 //! engine or inference stages, so the page can be rendered (and tested) from hand-built values.
 
+use ndarray::Array2;
+
 /// Everything one report page shows, in the order the page shows it.
 #[derive(Clone, Debug)]
 pub struct ReportData {
@@ -86,10 +88,10 @@ pub struct MatrixPlot {
     pub label: String,
     pub row_labels: Vec<String>,
     pub col_labels: Vec<String>,
-    /// Row-major, rows × cols; NaN where there is no value.
-    pub values: Vec<f64>,
-    /// Row-major, rows × cols: 0 excluded, 1 admissible pseudo-pair, 2 real pair.
-    pub status: Vec<u8>,
+    /// Rows × cols; NaN where there is no value.
+    pub values: Array2<f64>,
+    /// Rows × cols: 0 excluded, 1 admissible pseudo-pair, 2 real pair.
+    pub status: Array2<u8>,
 }
 
 /// The analysis settings and counts the methods paragraph is generated from.

@@ -630,8 +630,9 @@ mod tests {
                 label: "a&b\"c".into(),
                 row_labels: vec!["<script>alert(1)</script>".into(), "m2".into()],
                 col_labels: vec!["p1".into(), "p2".into()],
-                values: vec![0.5, 0.3, f64::NAN, 0.6],
-                status: vec![2, 1, 0, 2],
+                values: ndarray::Array2::from_shape_vec((2, 2), vec![0.5, 0.3, f64::NAN, 0.6])
+                    .unwrap(),
+                status: ndarray::Array2::from_shape_vec((2, 2), vec![2, 1, 0, 2]).unwrap(),
             }),
             warnings: vec!["block 2 of \"a&b\" shortened <here>".into()],
         }

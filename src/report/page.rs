@@ -6,6 +6,7 @@ use crate::inference::TestKind;
 use crate::pairing::{Reference, Status};
 use crate::pipeline::Analysis;
 use crate::study::config::{ChannelPairs, Measure, TimeGrid};
+use crate::vocab::MemberIx;
 
 fn cell_label(k: &crate::inference::CellKey) -> String {
     format!(
@@ -247,22 +248,20 @@ fn matrix(a: &Analysis) -> Option<MatrixPlot> {
         .min_by(|x, y| x.p_adj.total_cmp(&y.p_adj).then(x.p.total_cmp(&y.p)))?;
     let cell = a.cells.iter().find(|c| c.key == best.key)?;
     let plan = &a.plan;
-    let (n_rows, n_cols) = (plan.n_rows(), plan.n_cols());
-    let mut status = Vec::with_capacity(n_rows * n_cols);
-    for r in 0..n_rows {
-        for c in 0..n_cols {
-            status.push(match plan.status(r, c) {
+    let grid = &plan.grid;
+    let status =
+        ndarray::Array2::from_shape_fn((grid.n_rows(), grid.n_cols()), |(r, c)| {
+            match plan.status(r, c) {
                 Status::Real => 2,
                 Status::Admissible => 1,
                 Status::Excluded(_) => 0,
-            });
-        }
-    }
-    let label = |m: usize| a.study.members[m].id.clone();
+            }
+        });
+    let label = |m: &MemberIx| a.study.members[m.0].id.clone();
     Some(MatrixPlot {
         label: cell_label(&best.key),
-        row_labels: plan.rows.iter().map(|&m| label(m)).collect(),
-        col_labels: plan.cols.iter().map(|&m| label(m)).collect(),
+        row_labels: grid.rows().iter().map(label).collect(),
+        col_labels: grid.cols().iter().map(label).collect(),
         values: cell.values.clone(),
         status,
     })

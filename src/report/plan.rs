@@ -152,7 +152,7 @@ impl PlanAudit {
             Measure::Corr => 0,
         };
         PlanAudit {
-            mode: if plan.peers {
+            mode: if plan.peers() {
                 "peers".into()
             } else {
                 "roles".into()

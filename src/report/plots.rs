@@ -427,11 +427,12 @@ fn hatch(
 pub fn heatmap_svg(m: &MatrixPlot) -> String {
     let g = Grid::new(m);
     let cells = g.rows * g.cols;
-    let value = |r: usize, c: usize| m.values.get(r * g.cols + c).copied().unwrap_or(f64::NAN);
-    let status = |r: usize, c: usize| m.status.get(r * g.cols + c).copied().unwrap_or(0);
+    let value = |r: usize, c: usize| m.values.get((r, c)).copied().unwrap_or(f64::NAN);
+    let status = |r: usize, c: usize| m.status.get((r, c)).copied().unwrap_or(0);
     let (vmin, vmax) = (0..cells)
-        .filter(|&i| m.status.get(i).copied().unwrap_or(0) != 0)
-        .filter_map(|i| m.values.get(i).copied())
+        .map(|i| (i / g.cols.max(1), i % g.cols.max(1)))
+        .filter(|&(r, c)| status(r, c) != 0)
+        .map(|(r, c)| value(r, c))
         .filter(|v| v.is_finite())
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
             (a.min(v), b.max(v))
@@ -604,8 +605,13 @@ mod tests {
             label: "task <hbo> & co".into(),
             row_labels: vec!["m<1>".into(), "m2".into(), "m3".into()],
             col_labels: vec!["p1".into(), "p&2".into(), "p3".into()],
-            values: vec![0.5, 0.2, f64::NAN, 0.1, 0.6, 0.3, 0.25, 0.15, 0.7],
-            status: vec![2, 1, 1, 0, 2, 1, 1, 1, 2],
+            values: ndarray::Array2::from_shape_vec(
+                (3, 3),
+                vec![0.5, 0.2, f64::NAN, 0.1, 0.6, 0.3, 0.25, 0.15, 0.7],
+            )
+            .unwrap(),
+            status: ndarray::Array2::from_shape_vec((3, 3), vec![2, 1, 1, 0, 2, 1, 1, 1, 2])
+                .unwrap(),
         }
     }
 
@@ -656,8 +662,8 @@ mod tests {
             label: "empty".into(),
             row_labels: vec![],
             col_labels: vec![],
-            values: vec![],
-            status: vec![],
+            values: ndarray::Array2::zeros((0, 0)),
+            status: ndarray::Array2::zeros((0, 0)),
         };
         assert!(heatmap_svg(&m).contains("<svg"));
     }

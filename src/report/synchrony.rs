@@ -30,8 +30,8 @@ pub fn write(study: &Study, syn: &Synchrony, path: &Path) -> Result<(), TableErr
                 for (k, band_name) in syn.bands.iter().enumerate() {
                     for (r, roi_name) in syn.rois.iter().enumerate() {
                         let (v, used, ph) = syn.block_value(p, b, h, k, r);
-                        member_a.push(study.members[pr.a].id.clone());
-                        member_b.push(study.members[pr.b].id.clone());
+                        member_a.push(study.members[pr.a.0].id.clone());
+                        member_b.push(study.members[pr.b.0].id.clone());
                         real.push(pr.real);
                         condition.push(syn.conditions[cond].clone());
                         block.push(syn.block_numbers[b] as i64);

@@ -137,7 +137,10 @@ pub fn pairs(study: &Study, plan: &PairPlan, path: &Path) -> Result<(), TableErr
     let mut status = Vec::new();
     let mut reason = Vec::new();
     for (r, c, s) in plan.candidates() {
-        let (ma, mb) = (&study.members[plan.rows[r]], &study.members[plan.cols[c]]);
+        let (ma, mb) = (
+            &study.members[plan.grid.row_member(r).0],
+            &study.members[plan.grid.col_member(c).0],
+        );
         a.push(ma.id.clone());
         b.push(mb.id.clone());
         da.push(study.dyads[ma.dyad].id.clone());

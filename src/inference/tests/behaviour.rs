@@ -9,7 +9,7 @@ use rand::RngExt;
 fn cell(condition: &str, roi: &str, values: Vec<f64>) -> CellMatrix {
     CellMatrix {
         key: common::key(condition, "theta", roi),
-        values,
+        values: common::square(values),
     }
 }
 
@@ -69,7 +69,7 @@ fn untestable_cell_is_flagged_and_left_out_of_its_family() {
     let mut cells = random_cells(d, &[("talk", "pfc"), ("talk", "tpj"), ("talk", "ifg")], 3);
     // Only two real values left in the ifg cell.
     for i in 0..3 {
-        cells[2].values[i * d + i] = f64::NAN;
+        cells[2].values[[i, i]] = f64::NAN;
     }
     let pairs = common::derangement_draws(d, 300, &mut common::rng(4));
     let draws = Draws {
@@ -190,8 +190,8 @@ fn condition_contrast_matches_brute_force_sign_flips() {
             })
             .collect()
     };
-    let a = dyad_d(&cells[0].values);
-    let b = dyad_d(&cells[1].values);
+    let a = dyad_d(cells[0].flat());
+    let b = dyad_d(cells[1].flat());
     let diff: Vec<f64> = a.iter().zip(&b).map(|(x, y)| x - y).collect();
     let t = |x: &[f64]| {
         let n = x.len() as f64;

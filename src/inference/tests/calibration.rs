@@ -64,7 +64,7 @@ fn simulate(sim: usize, base: u64, sc: Scenario) -> InferenceOutput {
     let pairs = match reference {
         Reference::Derangements => common::derangement_draws(d, K, &mut rng),
         Reference::Group => {
-            layout.admissible = vec![true; d * d];
+            layout.admissible = ndarray::Array2::from_elem((d, d), true);
             (0..K)
                 .flat_map(|_| {
                     let p = common::permutation(d, &mut rng);
@@ -79,7 +79,11 @@ fn simulate(sim: usize, base: u64, sc: Scenario) -> InferenceOutput {
     let cell_list: Vec<CellMatrix> = (0..cells)
         .map(|c| CellMatrix {
             key: common::key("talk", "theta", &format!("r{c}")),
-            values: common::null_matrix(d, if c == 0 { coupling } else { 0.0 }, &mut rng),
+            values: common::square(common::null_matrix(
+                d,
+                if c == 0 { coupling } else { 0.0 },
+                &mut rng,
+            )),
         })
         .collect();
     let mut cfg = common::config(correction, vec![FamilyAxis::Roi]);

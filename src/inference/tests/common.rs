@@ -3,6 +3,8 @@
 //! value(r, c) = a_r + b_c + e_rc.
 
 use super::super::*;
+use crate::vocab::{Col, MemberIx, PairGrid, Row};
+use ndarray::Array2;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
@@ -15,24 +17,27 @@ pub fn key(condition: &str, band: &str, roi: &str) -> CellKey {
     }
 }
 
+/// A grid cell from plain positions.
+pub fn rc(r: usize, c: usize) -> (Row, Col) {
+    (Row(r), Col(c))
+}
+
 /// Roles mode, D dyads, every off-diagonal pair admissible.
 pub fn roles_layout(d: usize) -> Layout {
-    let mut admissible = vec![true; d * d];
-    for i in 0..d {
-        admissible[i * d + i] = false;
-    }
+    let grid = PairGrid::roles(
+        (0..d).map(MemberIx).collect(),
+        (d..2 * d).map(MemberIx).collect(),
+    );
     Layout {
-        n_rows: d,
-        n_cols: d,
-        peers: false,
+        admissible: Array2::from_shape_fn((d, d), |(r, c)| r != c),
+        grid,
         dyads: (0..d).map(|i| format!("dy{i:02}")).collect(),
-        real: (0..d as u32).map(|i| (i, i)).collect(),
-        admissible,
-        dyad_pseudo: (0..d as u32)
+        real: (0..d).map(|i| rc(i, i)).collect(),
+        dyad_pseudo: (0..d)
             .map(|i| {
-                (0..d as u32)
+                (0..d)
                     .filter(|&j| j != i)
-                    .flat_map(|j| [(i, j), (j, i)])
+                    .flat_map(|j| [rc(i, j), rc(j, i)])
                     .collect()
             })
             .collect(),
@@ -43,19 +48,15 @@ pub fn roles_layout(d: usize) -> Layout {
 /// except the real ones (which are admissible too but never re-paired).
 pub fn peers_layout(d: usize) -> Layout {
     let n = 2 * d;
-    let mut admissible = vec![true; n * n];
-    for m in 0..n {
-        admissible[m * n + m] = false;
-    }
-    let real: Vec<(u32, u32)> = (0..d as u32).map(|i| (2 * i, 2 * i + 1)).collect();
+    let real: Vec<(Row, Col)> = (0..d).map(|i| rc(2 * i, 2 * i + 1)).collect();
     let dyad_pseudo = real
         .iter()
         .map(|&(a, b)| {
             let mut v = Vec::new();
-            for m in [a, b] {
-                for o in 0..n as u32 {
-                    if o != a && o != b {
-                        v.push((m.min(o), m.max(o)));
+            for m in [a.0, b.0] {
+                for o in 0..n {
+                    if o != a.0 && o != b.0 {
+                        v.push(rc(m.min(o), m.max(o)));
                     }
                 }
             }
@@ -63,12 +64,10 @@ pub fn peers_layout(d: usize) -> Layout {
         })
         .collect();
     Layout {
-        n_rows: n,
-        n_cols: n,
-        peers: true,
+        grid: PairGrid::peers(n),
         dyads: (0..d).map(|i| format!("pd{i:02}")).collect(),
         real,
-        admissible,
+        admissible: Array2::from_shape_fn((n, n), |(r, c)| r != c),
         dyad_pseudo,
     }
 }
@@ -136,6 +135,12 @@ pub fn null_matrix(d: usize, coupling: f64, rng: &mut ChaCha8Rng) -> Vec<f64> {
         }
     }
     v
+}
+
+/// A square matrix from its values in row-major order.
+pub fn square(values: Vec<f64>) -> Array2<f64> {
+    let n = (values.len() as f64).sqrt().round() as usize;
+    Array2::from_shape_vec((n, n), values).expect("a square number of values")
 }
 
 pub fn rng(seed: u64) -> ChaCha8Rng {

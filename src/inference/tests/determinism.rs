@@ -35,7 +35,7 @@ fn study(seed: u64) -> Vec<CellMatrix> {
                             band: band.into(),
                             roi: roi.into(),
                         },
-                        values,
+                        values: common::square(values),
                     });
                 }
             }

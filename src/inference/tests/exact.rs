@@ -73,7 +73,7 @@ fn brute_p(t: f64, null: &[f64], two_sided: bool) -> f64 {
 fn cell(values: Vec<f64>) -> CellMatrix {
     CellMatrix {
         key: common::key("talk", "theta", "pfc"),
-        values,
+        values: common::square(values),
     }
 }
 
