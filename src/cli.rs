@@ -113,9 +113,13 @@ pub struct RunArgs {
 
 #[derive(Debug, Args)]
 pub struct ReplayArgs {
-    /// The manifest.json of an earlier run
+    /// The manifest.json of an earlier run, in its output folder
     pub manifest: PathBuf,
-    /// Worker threads (default: all cores)
+    /// The study.toml to replay against, when the study was moved away from its outputs
+    /// (default: the study the manifest names, relative to the manifest's folder)
+    #[arg(long, value_name = "STUDY.toml")]
+    pub study: Option<PathBuf>,
+    /// Worker threads (default: the thread count the manifest records)
     #[arg(long)]
     pub threads: Option<usize>,
     /// No progress bars

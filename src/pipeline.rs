@@ -1,6 +1,11 @@
 //! The main job as one function per arrow of the data flow: a validated study → the pair plan
 //! → the re-pairings → the synchrony matrices → inference. This module only converts between
-//! the stages' plain types; each stage's logic lives in its own module.
+//! the stages' plain types; each stage's logic lives in its own module. `job` runs the whole
+//! analysis into a folder for the commands that need it (`run`, `replay`).
+
+mod job;
+
+pub use job::{Job, Outcome, execute, set_threads};
 
 use std::time::Instant;
 

@@ -69,8 +69,99 @@ fn two_runs_on_one_and_two_threads_are_identical_and_replay_confirms() {
     ]);
     assert!(o.status.success(), "{}{}", stdout(&o), stderr(&o));
     let text = stdout(&o);
-    assert!(text.contains("OK       results.tsv"), "{text}");
+    for check in ["folder", "recomputation"] {
+        assert!(
+            text.contains(&replay_line(check, "OK", "results.tsv")),
+            "{text}"
+        );
+    }
+    assert!(
+        text.contains(&replay_line("inputs", "OK", "study.toml")),
+        "{text}"
+    );
     assert!(!text.contains("DIFFERS"), "{text}");
+}
+
+/// One line of replay's file-by-file report: the check, the verdict, the file.
+fn replay_line(check: &str, verdict: &str, file: &str) -> String {
+    format!("{check:<14} {verdict:<10} {file}")
+}
+
+fn replay(manifest: &Path, extra: &[&str]) -> std::process::Output {
+    let mut args = vec!["replay", manifest.to_str().unwrap(), "--quiet"];
+    args.extend_from_slice(extra);
+    nevermet(&args)
+}
+
+#[test]
+fn replay_checks_the_files_in_the_output_folder_first() {
+    let s = quick_study();
+    let out = s.dir.path().join("out");
+    let o = s.run_into(&out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let manifest = out.join("manifest.json");
+    let results = std::fs::read(out.join("results.tsv")).unwrap();
+    let dyads = std::fs::read(out.join("dyads.tsv")).unwrap();
+
+    // One byte appended to a result table: the folder check fails, the recomputation agrees.
+    let mut edited = results.clone();
+    edited.push(b'\n');
+    std::fs::write(out.join("results.tsv"), &edited).unwrap();
+    let o = replay(&manifest, &[]);
+    let text = stdout(&o);
+    assert_eq!(o.status.code(), Some(1), "{text}{}", stderr(&o));
+    assert!(
+        text.contains(&replay_line("folder", "CHANGED", "results.tsv")),
+        "{text}"
+    );
+    assert!(
+        text.contains(&replay_line("folder", "OK", "dyads.tsv")),
+        "{text}"
+    );
+    assert!(
+        text.contains(&replay_line("inputs", "OK", "events.tsv")),
+        "{text}"
+    );
+    assert!(
+        text.contains(&replay_line("recomputation", "OK", "results.tsv")),
+        "{text}"
+    );
+    assert!(
+        text.contains("replay: folder         FAILED, 1 file(s): results.tsv"),
+        "{text}"
+    );
+    assert!(
+        stderr(&o).contains("found differences (folder)"),
+        "{}",
+        stderr(&o)
+    );
+    std::fs::write(out.join("results.tsv"), &results).unwrap();
+
+    // A deleted one.
+    std::fs::remove_file(out.join("dyads.tsv")).unwrap();
+    let o = replay(&manifest, &[]);
+    let text = stdout(&o);
+    assert_eq!(o.status.code(), Some(1), "{text}");
+    assert!(
+        text.contains(&replay_line("folder", "MISSING", "dyads.tsv")),
+        "{text}"
+    );
+    std::fs::write(out.join("dyads.tsv"), &dyads).unwrap();
+
+    // One the manifest does not list; the manifest's own timings are not such a file.
+    std::fs::write(out.join("results-final.tsv"), &results).unwrap();
+    let o = replay(&manifest, &[]);
+    let text = stdout(&o);
+    assert_eq!(o.status.code(), Some(1), "{text}");
+    assert!(
+        text.contains(&replay_line("folder", "EXTRA", "results-final.tsv")),
+        "{text}"
+    );
+    assert!(!text.contains("timings.json"), "{text}");
+    std::fs::remove_file(out.join("results-final.tsv")).unwrap();
+
+    let o = replay(&manifest, &[]);
+    assert!(o.status.success(), "{}{}", stdout(&o), stderr(&o));
 }
 
 #[test]
@@ -80,27 +171,156 @@ fn replay_names_a_changed_input_and_a_differing_output() {
     let o = s.run_into(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     let manifest = out.join("manifest.json");
-    // A tampered output hash must be reported as DIFFERS with exit code 1.
-    let text = std::fs::read_to_string(&manifest).unwrap();
-    let mut m: serde_json::Value = serde_json::from_str(&text).unwrap();
+    // A tampered output hash: the folder's file and the recomputed one both differ from it.
+    let original = std::fs::read_to_string(&manifest).unwrap();
+    let mut m: serde_json::Value = serde_json::from_str(&original).unwrap();
     m["outputs"]["results.tsv"] = serde_json::Value::String("0".repeat(64));
     std::fs::write(&manifest, serde_json::to_string_pretty(&m).unwrap()).unwrap();
-    let o = nevermet(&["replay", manifest.to_str().unwrap(), "--quiet"]);
-    assert_eq!(o.status.code(), Some(1), "{}", stdout(&o));
+    let o = replay(&manifest, &[]);
+    let text = stdout(&o);
+    assert_eq!(o.status.code(), Some(1), "{text}");
     assert!(
-        stdout(&o).contains("DIFFERS  results.tsv"),
-        "{}",
-        stdout(&o)
+        text.contains(&replay_line("folder", "CHANGED", "results.tsv")),
+        "{text}"
     );
-    // A changed input is an error naming the file.
+    assert!(
+        text.contains(&replay_line("recomputation", "DIFFERS", "results.tsv")),
+        "{text}"
+    );
+    assert!(
+        text.contains(&replay_line("recomputation", "OK", "dyads.tsv")),
+        "{text}"
+    );
+    std::fs::write(&manifest, &original).unwrap();
+    // A changed input is named, and nothing is recomputed from it.
     s.edit("events.tsv", |t| t + "\n");
-    let o = nevermet(&["replay", manifest.to_str().unwrap(), "--quiet"]);
-    assert!(!o.status.success());
+    let o = replay(&manifest, &[]);
+    let text = stdout(&o);
+    assert_eq!(o.status.code(), Some(1), "{text}");
     assert!(
-        stderr(&o).contains("events.tsv: input changed"),
-        "{}",
-        stderr(&o)
+        text.contains(&replay_line("inputs", "CHANGED", "events.tsv")),
+        "{text}"
     );
+    assert!(
+        text.contains(&replay_line("folder", "OK", "results.tsv")),
+        "{text}"
+    );
+    assert!(text.contains("replay: recomputation  not run"), "{text}");
+    assert!(
+        !text.contains(&replay_line("recomputation", "OK", "results.tsv")),
+        "{text}"
+    );
+}
+
+/// Copies a folder tree.
+fn copy_tree(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let e = e.unwrap();
+        let dest = to.join(e.file_name());
+        if e.file_type().unwrap().is_dir() {
+            copy_tree(&e.path(), &dest);
+        } else {
+            std::fs::copy(e.path(), dest).unwrap();
+        }
+    }
+}
+
+#[test]
+fn a_study_and_its_outputs_moved_together_still_replay() {
+    let s = quick_study();
+    let out = s.dir.path().join("results/first");
+    std::fs::create_dir_all(out.parent().unwrap()).unwrap();
+    let o = s.run_into(&out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
+    assert_eq!(m["study"], "../../study/study.toml");
+    // Both folders copied elsewhere, at another depth; the originals gone.
+    let elsewhere = tempfile::tempdir().unwrap();
+    let moved = elsewhere.path().join("archive/2026");
+    copy_tree(&s.root(), &moved.join("study"));
+    copy_tree(&out, &moved.join("results/first"));
+    std::fs::remove_dir_all(s.root()).unwrap();
+    std::fs::remove_dir_all(&out).unwrap();
+    let o = replay(&moved.join("results/first/manifest.json"), &[]);
+    assert!(o.status.success(), "{}{}", stdout(&o), stderr(&o));
+    assert!(stdout(&o).contains(&replay_line("recomputation", "OK", "results.tsv")));
+}
+
+#[test]
+fn a_study_moved_on_its_own_replays_with_study() {
+    let s = quick_study();
+    let out = s.dir.path().join("out");
+    let o = s.run_into(&out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let manifest = out.join("manifest.json");
+    let elsewhere = tempfile::tempdir().unwrap();
+    let moved = elsewhere.path().join("kept");
+    copy_tree(&s.root(), &moved);
+    std::fs::remove_dir_all(s.root()).unwrap();
+    let o = replay(&manifest, &[]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = stderr(&o);
+    assert!(
+        err.contains("study.toml: the study file the manifest names"),
+        "{err}"
+    );
+    assert!(err.contains("--study"), "{err}");
+    let toml = moved.join("study.toml");
+    let o = replay(&manifest, &["--study", toml.to_str().unwrap()]);
+    assert!(o.status.success(), "{}{}", stdout(&o), stderr(&o));
+    // The inputs of the moved study are still held to the manifest's hashes.
+    let members = moved.join("members.tsv");
+    let text = std::fs::read_to_string(&members).unwrap();
+    std::fs::write(&members, text + "\n").unwrap();
+    let o = replay(&manifest, &["--study", toml.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", stdout(&o));
+    assert!(stdout(&o).contains(&replay_line("inputs", "CHANGED", "members.tsv")));
+}
+
+/// The files under `dir` whose bytes hold `needle`.
+fn files_holding(dir: &Path, needle: &str) -> Vec<PathBuf> {
+    let mut hits = Vec::new();
+    for e in std::fs::read_dir(dir).unwrap() {
+        let p = e.unwrap().path();
+        if p.is_dir() {
+            hits.extend(files_holding(&p, needle));
+        } else {
+            let bytes = std::fs::read(&p).unwrap();
+            if bytes.windows(needle.len()).any(|w| w == needle.as_bytes()) {
+                hits.push(p);
+            }
+        }
+    }
+    hits
+}
+
+#[test]
+fn no_output_file_holds_an_absolute_path_of_the_machine() {
+    let s = quick_study();
+    let out = s.dir.path().join("out");
+    let audit = s.dir.path().join("audit");
+    // Absolute paths on the command line, the way a script would give them.
+    let o = s.run_into(&out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(s.toml().is_absolute() && out.is_absolute());
+    let o = nevermet(&[
+        "plan",
+        s.toml().to_str().unwrap(),
+        "--out",
+        audit.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let base = s.dir.path().to_str().unwrap().to_string();
+    let real = std::fs::canonicalize(s.dir.path()).unwrap();
+    for needle in [base.as_str(), real.to_str().unwrap()] {
+        for dir in [&out, &audit] {
+            let hits = files_holding(dir, needle);
+            assert!(hits.is_empty(), "{needle} appears in {hits:?}");
+        }
+    }
+    assert!(out.join("report.html").is_file() && audit.join("plan.json").is_file());
 }
 
 #[test]
@@ -329,4 +549,98 @@ fn peers_mode_runs_end_to_end() {
     assert!(pairs.contains("excluded\tsame-participant"), "{pairs}");
     let results = std::fs::read_to_string(out.join("results.tsv")).unwrap();
     assert_eq!(results.lines().count(), 1 + 2 * 18, "{results}");
+}
+
+/// Starts `run` on the study into `out` in the background.
+fn spawn_run(s: &TempStudy, out: &Path, extra: &[&str]) -> std::process::Child {
+    Command::new(bin())
+        .args([
+            "run",
+            s.toml().to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ])
+        .args(extra)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap()
+}
+
+/// Waits until a staging folder appears in `dir` and returns it.
+fn wait_for_staging(dir: &Path) -> PathBuf {
+    let start = std::time::Instant::now();
+    loop {
+        if let Some(p) = leftovers(dir).pop() {
+            return p;
+        }
+        assert!(start.elapsed().as_secs() < 30, "no staging folder appeared");
+        std::thread::sleep(std::time::Duration::from_millis(10));
+    }
+}
+
+#[test]
+fn a_staging_folder_left_by_a_killed_run_is_removed_by_the_next_run() {
+    let s = TempStudy::with_args(&["--dyads", "40"]);
+    let out = s.dir.path().join("out");
+    let mut child = spawn_run(&s, &out, &[]);
+    let left = wait_for_staging(s.dir.path());
+    std::thread::sleep(std::time::Duration::from_millis(100));
+    child.kill().unwrap(); // SIGKILL: no handler runs
+    child.wait().unwrap();
+    assert!(
+        left.is_dir(),
+        "the killed run had no chance to remove {}",
+        left.display()
+    );
+    assert!(!out.exists());
+    let o = s.run_into(&out, &[]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let err = stderr(&o);
+    let name = left.file_name().unwrap().to_string_lossy().into_owned();
+    assert!(err.contains("nevermet: removed"), "{err}");
+    assert!(err.contains(&name), "{err}");
+    assert!(err.contains(&format!("(process {})", child.id())), "{err}");
+    assert!(
+        leftovers(s.dir.path()).is_empty(),
+        "{:?}",
+        leftovers(s.dir.path())
+    );
+    for f in OUTPUTS {
+        assert!(out.join(f).is_file(), "missing {f}");
+    }
+}
+
+#[test]
+fn a_second_run_into_a_folder_being_written_is_refused() {
+    let s = TempStudy::with_args(&["--dyads", "40"]);
+    let out = s.dir.path().join("out");
+    let mut first = spawn_run(&s, &out, &["--threads", "1"]);
+    let staging = wait_for_staging(s.dir.path());
+    let o = s.run_into(&out, &[]);
+    assert!(
+        first.try_wait().unwrap().is_none(),
+        "the first run ended before the second was refused; the test proves nothing"
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    let err = stderr(&o);
+    assert!(
+        err.contains(&format!("another nevermet run (process {})", first.id())),
+        "{err}"
+    );
+    assert!(
+        err.contains(&staging.file_name().unwrap().to_string_lossy().into_owned()),
+        "{err}"
+    );
+    assert!(
+        staging.is_dir(),
+        "the refused run must not touch the running one's folder"
+    );
+    let status = first.wait().unwrap();
+    assert!(status.success(), "the first run failed");
+    assert!(leftovers(s.dir.path()).is_empty());
+    for f in OUTPUTS {
+        assert!(out.join(f).is_file(), "missing {f}");
+    }
 }

@@ -1,139 +1,31 @@
 //! `nevermet run`: the whole analysis into an atomically written output folder.
 
-use std::collections::BTreeMap;
 use std::path::Path;
 use std::process::ExitCode;
-use std::time::Instant;
-
-use anyhow::Context;
 
 use crate::cli::RunArgs;
-use crate::engine::{Bars, Progress};
-use crate::pipeline::{self, Analysis, AnalysisOptions};
-use crate::report::manifest::{self, Manifest};
+use crate::engine::Bars;
+use crate::pipeline::{self, Job, Outcome};
 use crate::report::outdir::{self, Staging};
-use crate::report::{self, plan::PlanAudit};
 use crate::study;
-
-const GIB: f64 = (1u64 << 30) as f64;
-
-/// Sets the worker count once for the process; `None` keeps rayon's default (all cores).
-pub fn set_threads(threads: Option<usize>) -> anyhow::Result<usize> {
-    if let Some(n) = threads {
-        anyhow::ensure!(n >= 1, "--threads must be at least 1");
-        rayon::ThreadPoolBuilder::new()
-            .num_threads(n)
-            .build_global()
-            .context("setting up the worker threads")?;
-    }
-    Ok(rayon::current_num_threads())
-}
-
-/// What one execution produced.
-pub struct Outcome {
-    pub analysis: Analysis,
-    pub audit: PlanAudit,
-    pub manifest: Manifest,
-}
-
-/// Loads, analyses and writes every output file into `dir` (a staging folder).
-pub fn execute(
-    study_path: &Path,
-    seed: Option<u64>,
-    memory_gib: f64,
-    threads: usize,
-    progress: &dyn Progress,
-    dir: &Path,
-) -> anyhow::Result<Outcome> {
-    let start = Instant::now();
-    let study = study::load(study_path)?;
-    let load_time = start.elapsed().as_secs_f64();
-    let seed = seed.unwrap_or(study.config.inference.seed);
-    anyhow::ensure!(memory_gib > 0.0, "--memory-gib must be positive");
-    let opts = AnalysisOptions {
-        seed,
-        memory_bytes: (memory_gib * GIB) as u64,
-    };
-    let mut analysis = pipeline::analyse(study, opts, progress)?;
-    analysis.timings.insert(0, ("load".to_string(), load_time));
-    let mut warnings = analysis.study.warnings.clone();
-    warnings.extend(analysis.null.warning());
-    warnings.extend(analysis.inference.warnings.iter().cloned());
-    let audit = report::audit(&analysis);
-    let t = Instant::now();
-    let outputs = report::write_outputs(&analysis, &audit, &warnings, dir)?;
-    analysis
-        .timings
-        .push(("outputs".to_string(), t.elapsed().as_secs_f64()));
-    let study_abs = std::fs::canonicalize(study_path)
-        .with_context(|| format!("resolving {}", study_path.display()))?;
-    let root = &analysis.study.root;
-    let inputs =
-        manifest::hash_files(root, &analysis.study.input_files).context("hashing the inputs")?;
-    let output_hashes = manifest::hash_files(dir, &outputs).context("hashing the outputs")?;
-    let mut counts = BTreeMap::new();
-    counts.insert("dyads".into(), analysis.study.dyads.len().into());
-    counts.insert("members".into(), analysis.study.members.len().into());
-    counts.insert("candidates".into(), audit.candidates.into());
-    counts.insert("admissible_pairs".into(), audit.admissible_pairs.into());
-    counts.insert("excluded".into(), audit.excluded.into());
-    counts.insert("repairings_drawn".into(), analysis.repairings.len().into());
-    counts.insert("cells".into(), analysis.cells.len().into());
-    counts.insert("pair_blocks".into(), audit.cost.pair_blocks.into());
-    let m = Manifest {
-        tool: "nevermet".into(),
-        version: env!("CARGO_PKG_VERSION").into(),
-        study: study_abs,
-        seed,
-        threads,
-        memory_gib,
-        sampler: serde_json::json!({
-            "reference": analysis.null.reference,
-            "reference_size": audit.repairings.size,
-            "method": analysis.repairings.method,
-            "description": analysis.repairings.method.to_string(),
-            "exact": analysis.repairings.exact,
-            "compared_with": analysis.repairings.len(),
-            "reason": analysis.null.reason,
-        }),
-        config: Manifest::resolved_config(&analysis.study.config),
-        counts,
-        inputs,
-        outputs: output_hashes,
-        warnings,
-    };
-    report::write_json(&m, &dir.join(manifest::MANIFEST))?;
-    let ordered: Vec<serde_json::Value> = analysis
-        .timings
-        .iter()
-        .map(|(k, v)| serde_json::json!({"stage": k, "seconds": v}))
-        .collect();
-    report::write_json(
-        &serde_json::json!({ "threads": threads, "stages": ordered }),
-        &dir.join(manifest::TIMINGS),
-    )?;
-    Ok(Outcome {
-        analysis,
-        audit,
-        manifest: m,
-    })
-}
 
 pub fn run(args: &RunArgs) -> anyhow::Result<ExitCode> {
     outdir::install_signal_cleanup();
-    let threads = set_threads(args.threads)?;
-    // Refuse a non-empty output folder before any heavy work.
-    outdir::check_target(&args.out, args.force)?;
-    let progress = Bars::new(args.quiet);
+    let threads = pipeline::set_threads(args.threads)?;
+    // Claim the output folder (refusing a non-empty one, or one another run is writing)
+    // before any heavy work.
     let staging = Staging::new(&args.out, args.force)?;
-    let outcome = match execute(
-        &args.study,
-        args.seed,
-        args.memory_gib,
+    for c in staging.cleaned() {
+        crate::errln!("nevermet: {c}");
+    }
+    let progress = Bars::new(args.quiet);
+    let job = Job {
+        study: args.study.clone(),
+        seed: args.seed,
+        memory_gib: args.memory_gib,
         threads,
-        &progress,
-        staging.path(),
-    ) {
+    };
+    let outcome = match pipeline::execute(&job, &progress, staging.path(), &args.out) {
         Ok(o) => o,
         Err(e) => {
             if let Some(se) = e.downcast_ref::<study::StudyError>() {

@@ -11,6 +11,7 @@ pub mod plan;
 pub mod plots;
 pub mod synchrony;
 pub mod tables;
+pub mod verify;
 
 use std::path::{Path, PathBuf};
 
