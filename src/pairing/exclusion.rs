@@ -4,7 +4,7 @@
 
 use std::collections::HashMap;
 
-use super::bigint::BigUint;
+use num_bigint::BigUint;
 
 /// Largest number of DP states kept per step in the subset DPs; bounds memory.
 const DP_STATES: usize = 1 << 20;
@@ -212,14 +212,14 @@ fn matching_polynomial(
     let mut roots: Vec<usize> = adj_of.keys().copied().collect();
     roots.sort_unstable();
     let mut budget = DP_BUDGET;
-    let mut poly = vec![BigUint::from_u128(1)];
+    let mut poly = vec![BigUint::from(1u32)];
     for root in roots {
         let m = matching_numbers(&adj_of[&root], &mut budget)?;
-        let mut out = vec![BigUint::zero(); poly.len() + m.len() - 1];
+        let mut out = vec![BigUint::ZERO; poly.len() + m.len() - 1];
         for (i, p) in poly.iter().enumerate() {
             for (j, &q) in m.iter().enumerate() {
                 if q != 0 {
-                    out[i + j] = out[i + j].add(&p.mul(&BigUint::from_u128(q)));
+                    out[i + j] += p * q;
                 }
             }
         }
@@ -231,20 +231,20 @@ fn matching_polynomial(
 /// `Σ_k (-1)^k r_k f(k)` for non-negative big terms; the caller guarantees a
 /// non-negative total (it is a count).
 fn alternating_sum(r: &[BigUint], f: impl Fn(usize) -> BigUint) -> BigUint {
-    let (mut pos, mut neg) = (BigUint::zero(), BigUint::zero());
+    let (mut pos, mut neg) = (BigUint::ZERO, BigUint::ZERO);
     for (k, rk) in r.iter().enumerate() {
-        if rk.is_zero() {
+        if *rk == BigUint::ZERO {
             continue;
         }
-        let t = rk.mul(&f(k));
+        let t = rk * f(k);
         if k % 2 == 0 {
-            pos = pos.add(&t);
+            pos += t;
         } else {
-            neg = neg.add(&t);
+            neg += t;
         }
     }
-    pos.checked_sub(&neg)
-        .expect("inclusion–exclusion gave a negative count")
+    assert!(pos >= neg, "inclusion–exclusion gave a negative count");
+    pos - neg
 }
 
 /// Permanent of a square 0/1 matrix from the rook numbers `r_k` of its zero cells:
@@ -287,9 +287,9 @@ pub(super) fn matchings_by_exclusions(a: &[Vec<bool>], max_cluster: usize) -> Op
 }
 
 fn factorials(n: usize) -> Vec<BigUint> {
-    let mut v = vec![BigUint::from_u128(1)];
+    let mut v = vec![BigUint::from(1u32)];
     for k in 1..=n {
-        let next = v[k - 1].mul_u64(k as u64);
+        let next = &v[k - 1] * k as u64;
         v.push(next);
     }
     v
@@ -297,9 +297,9 @@ fn factorials(n: usize) -> Vec<BigUint> {
 
 /// `(2m-1)!!` for m = 0..=pairs: the number of perfect matchings of 2m people.
 fn odd_double_factorials(pairs: usize) -> Vec<BigUint> {
-    let mut v = vec![BigUint::from_u128(1)];
+    let mut v = vec![BigUint::from(1u32)];
     for m in 1..=pairs {
-        let next = v[m - 1].mul_u64((2 * m - 1) as u64);
+        let next = &v[m - 1] * (2 * m - 1) as u64;
         v.push(next);
     }
     v
@@ -332,7 +332,7 @@ mod tests {
                 let want = matchings_brute(&a, &mut vec![true; n]) as u128;
                 assert_eq!(perfect_matchings_dp(&a), Some(want));
                 assert_eq!(
-                    matchings_by_exclusions(&a, CLUSTER_MAX).unwrap().to_u128(),
+                    u128::try_from(&matchings_by_exclusions(&a, CLUSTER_MAX).unwrap()).ok(),
                     Some(want)
                 );
             }

@@ -31,12 +31,11 @@
 //! `null` (the reference set and its sampler, the one value every stage reads),
 //! `count` with `permanent`, `exclusion`, `estimate` (how many re-pairings), `matching`
 //! (one re-pairing, or why none), `enumerate`, `rejection`, `chain` (the three
-//! samplers), `sampler` (method choice, streams, parallel loop), `bigint`, `bits`
+//! samplers), `sampler` (method choice, streams, parallel loop), `bits`
 //! (support), `error`.
 
 use std::collections::BTreeMap;
 
-mod bigint;
 mod bits;
 mod chain;
 mod count;

@@ -4,7 +4,7 @@
 
 use rayon::prelude::*;
 
-use super::bigint::BigUint;
+use num_bigint::BigUint;
 
 /// Largest roles block counted by Ryser's formula: on the 2-core development machine
 /// a dense 24 × 24 block takes 0.4–0.9 s (2^24 Gray-code steps), 25 × 25 about twice
@@ -70,15 +70,15 @@ pub(super) fn permanent_ryser(a: &[Vec<bool>]) -> BigUint {
         "Ryser's formula in 128-bit arithmetic needs n <= 34"
     );
     if n == 0 {
-        return BigUint::from_u128(1);
+        return BigUint::from(1u32);
     }
     // The product of the row sums bounds the permanent: stay in u64 when it fits.
     let bound = a.iter().try_fold(1u128, |acc, row| {
         acc.checked_mul(row.iter().filter(|&&x| x).count() as u128)
     });
     match bound {
-        Some(b) if b < u64::MAX as u128 => BigUint::from_u128(ryser::<u64>(a) as u128),
-        _ => BigUint::from_u128(ryser::<u128>(a)),
+        Some(b) if b < u64::MAX as u128 => BigUint::from(ryser::<u64>(a)),
+        _ => BigUint::from(ryser::<u128>(a)),
     }
 }
 
